@@ -1,0 +1,89 @@
+/**
+ * Fresnel reflectance and Snell refraction for a smooth dielectric interface, and the Schlick-style tint
+ * used by metals.
+ */
+
+/**
+ * Exact unpolarised Fresnel reflectance R = (Rs + Rp)/2 of a dielectric interface (Fresnel equations, e.g.
+ * Hecht, "Optics", section on the Fresnel equations). `cosI` is the cosine between the incident direction
+ * (pointing away from the surface) and the normal on the side of the medium with index n1; `eta` = n2/n1
+ * measured for a direction on the normal's side. A negative cosI means the direction is on the other side,
+ * so the roles of the media swap. Returns 1 under total internal reflection.
+ */
+export function fresnelDielectric(cosI: number, eta: number): number {
+  if (cosI < 0) {
+    eta = 1 / eta;
+    cosI = -cosI;
+  }
+  if (cosI > 1) cosI = 1;
+  const sin2I = 1 - cosI * cosI;
+  const sin2T = sin2I / (eta * eta);
+  if (sin2T >= 1) return 1;
+  const cosT = Math.sqrt(1 - sin2T);
+  // rs with n1 = 1, n2 = eta (scale-free): (n1 cosI − n2 cosT)/(n1 cosI + n2 cosT)
+  const rs = (cosI - eta * cosT) / (cosI + eta * cosT);
+  // rp: (n2 cosI − n1 cosT)/(n2 cosI + n1 cosT)
+  const rp = (eta * cosI - cosT) / (eta * cosI + cosT);
+  return 0.5 * (rs * rs + rp * rp);
+}
+
+/** Separate s and p reflectances (for tests and diagnostics); out[0] = Rs, out[1] = Rp. */
+export function fresnelDielectricSP(cosI: number, eta: number, out: Float64Array): void {
+  if (cosI < 0) {
+    eta = 1 / eta;
+    cosI = -cosI;
+  }
+  const sin2T = (1 - cosI * cosI) / (eta * eta);
+  if (sin2T >= 1) {
+    out[0] = 1;
+    out[1] = 1;
+    return;
+  }
+  const cosT = Math.sqrt(1 - sin2T);
+  const rs = (cosI - eta * cosT) / (cosI + eta * cosT);
+  const rp = (eta * cosI - cosT) / (eta * cosI + cosT);
+  out[0] = rs * rs;
+  out[1] = rp * rp;
+}
+
+/**
+ * Refract direction w (pointing away from the surface) through a surface with normal n (unit) and relative
+ * index eta = n_{other side}/n_{w side} measured for the normal's side; pbrt's sign-flipping convention.
+ * Writes the transmitted direction (pointing away on the other side) and returns the effective eta
+ * (n_t/n_i) used, or 0 on total internal reflection.
+ */
+export function refract(
+  wx: number,
+  wy: number,
+  wz: number,
+  nx: number,
+  ny: number,
+  nz: number,
+  eta: number,
+  out: Float64Array,
+): number {
+  let cosI = nx * wx + ny * wy + nz * wz;
+  if (cosI < 0) {
+    eta = 1 / eta;
+    cosI = -cosI;
+    nx = -nx;
+    ny = -ny;
+    nz = -nz;
+  }
+  const sin2I = Math.max(0, 1 - cosI * cosI);
+  const sin2T = sin2I / (eta * eta);
+  if (sin2T >= 1) return 0;
+  const cosT = Math.sqrt(1 - sin2T);
+  const k = cosI / eta - cosT;
+  out[0] = -wx / eta + k * nx;
+  out[1] = -wy / eta + k * ny;
+  out[2] = -wz / eta + k * nz;
+  return eta;
+}
+
+/** Schlick's approximation R0 + (1 − R0)(1 − cosθ)^5 (Schlick, Computer Graphics Forum 13(3), 1994). */
+export function schlick(r0: number, cos: number): number {
+  const m = 1 - cos;
+  const m2 = m * m;
+  return r0 + (1 - r0) * m2 * m2 * m;
+}

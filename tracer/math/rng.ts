@@ -1,0 +1,175 @@
+/**
+ * Counter-based random numbers: every number used while rendering is a pure function of
+ * (scene seed, pixel index, pass index, dimension index), so any subset of passes of any tile can be computed
+ * on any worker in any order and give bit-identical results.
+ *
+ * Generator: the `pcg4d` hash of Jarzynski & Olano, "Hash Functions for GPU Rendering", Journal of Computer
+ * Graphics Techniques 9(3), 2020. It maps four 32-bit inputs to four well-mixed 32-bit outputs; we feed it
+ * (pixel, pass, dimension block, seed) and use the four outputs as four consecutive dimensions.
+ *
+ * Pixel jitter uses correlated multi-jittered sampling (Kensler, "Correlated Multi-Jittered Sampling",
+ * Pixar Technical Memo 13-01, 2013): each pass of a pixel lands in its own stratum of the pixel, with a
+ * per-pixel random permutation, so samples spread evenly over passes.
+ */
+
+const TWO_NEG_32 = 2.3283064365386963e-10; // 2^-32: maps a uint32 onto [0, 1) (largest value 1 - 2^-32 < 1)
+
+/** Dimension blocks reserved for purposes other than path sampling (far above any path dimension). */
+export const BLOCK_PIXEL_PATTERN = 0xfffffff0;
+export const BLOCK_QUANTISE = 0xffffff00; // + k, k < 0xf0
+
+/** pcg4d over (a, b, c, d); writes four uint32 outputs to out[0..3]. */
+export function pcg4d(a: number, b: number, c: number, d: number, out: Uint32Array): void {
+  // v = v * 1664525u + 1013904223u  (the LCG step of the paper)
+  let x = (Math.imul(a, 1664525) + 1013904223) >>> 0;
+  let y = (Math.imul(b, 1664525) + 1013904223) >>> 0;
+  let z = (Math.imul(c, 1664525) + 1013904223) >>> 0;
+  let w = (Math.imul(d, 1664525) + 1013904223) >>> 0;
+  x = (x + Math.imul(y, w)) >>> 0;
+  y = (y + Math.imul(z, x)) >>> 0;
+  z = (z + Math.imul(x, y)) >>> 0;
+  w = (w + Math.imul(y, z)) >>> 0;
+  x = (x ^ (x >>> 16)) >>> 0;
+  y = (y ^ (y >>> 16)) >>> 0;
+  z = (z ^ (z >>> 16)) >>> 0;
+  w = (w ^ (w >>> 16)) >>> 0;
+  x = (x + Math.imul(y, w)) >>> 0;
+  y = (y + Math.imul(z, x)) >>> 0;
+  z = (z + Math.imul(x, y)) >>> 0;
+  w = (w + Math.imul(y, z)) >>> 0;
+  out[0] = x;
+  out[1] = y;
+  out[2] = z;
+  out[3] = w;
+}
+
+/**
+ * The random numbers of one (seed, pixel, pass) sample. `seek(d)` positions it at dimension d; `next()`
+ * returns dimension d in [0, 1) and advances. Reused for every sample (no allocation per sample).
+ */
+export class SampleStream {
+  seed = 0;
+  pixel = 0;
+  pass = 0;
+  private dim = 0;
+  private block = -1;
+  private readonly words = new Uint32Array(4);
+
+  start(seed: number, pixel: number, pass: number): void {
+    this.seed = seed >>> 0;
+    this.pixel = pixel >>> 0;
+    this.pass = pass >>> 0;
+    this.dim = 0;
+    this.block = -1;
+  }
+
+  seek(dim: number): void {
+    this.dim = dim;
+  }
+
+  next(): number {
+    const d = this.dim++;
+    const b = d >>> 2;
+    if (b !== this.block) {
+      pcg4d(this.pixel, this.pass, b, this.seed, this.words);
+      this.block = b;
+    }
+    return this.words[d & 3] * TWO_NEG_32;
+  }
+
+  /** Four raw uint32 words of a reserved block (e.g. quantisation dither); does not move the stream. */
+  reserved(block: number, out: Uint32Array): void {
+    pcg4d(this.pixel, this.pass, block >>> 0, this.seed, out);
+    this.block = -1; // out may alias nothing, but keep the cache honest if a caller passes `words`
+  }
+}
+
+/** Uniform value in [0, 1) for dimension `dim` of sample (seed, pixel, pass), without a stream object. */
+export function sampleAt(seed: number, pixel: number, pass: number, dim: number, scratch: Uint32Array): number {
+  pcg4d(pixel >>> 0, pass >>> 0, dim >>> 2, seed >>> 0, scratch);
+  return scratch[dim & 3] * TWO_NEG_32;
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Correlated multi-jittered sampling (Kensler 2013). `permute` is a hash-based bijection of [0, l) chosen by
+// pattern p (cycle-walking keeps it inside [0, l)); `randfloat` a hashed jitter in [0, 1).
+
+export function permute(i: number, l: number, p: number): number {
+  let w = l - 1;
+  w |= w >>> 1;
+  w |= w >>> 2;
+  w |= w >>> 4;
+  w |= w >>> 8;
+  w |= w >>> 16;
+  w >>>= 0;
+  p >>>= 0;
+  i >>>= 0;
+  do {
+    i ^= p;
+    i = Math.imul(i, 0xe170893d);
+    i ^= p >>> 16;
+    i ^= (i & w) >>> 4;
+    i ^= p >>> 8;
+    i = Math.imul(i, 0x0929eb3f);
+    i ^= p >>> 23;
+    i ^= (i & w) >>> 1;
+    i = Math.imul(i, 1 | (p >>> 27));
+    i = Math.imul(i, 0x6935fa69);
+    i ^= (i & w) >>> 11;
+    i = Math.imul(i, 0x74dcb303);
+    i ^= (i & w) >>> 2;
+    i = Math.imul(i, 0x9e501cc3);
+    i ^= (i & w) >>> 2;
+    i = Math.imul(i, 0xc860a3df);
+    i &= w;
+    i ^= i >>> 5;
+    i >>>= 0;
+  } while (i >= l);
+  return (i + p) % l;
+}
+
+export function randfloat(i: number, p: number): number {
+  i = (i ^ p) >>> 0;
+  i ^= i >>> 17;
+  i ^= i >>> 10;
+  i = Math.imul(i, 0xb36534e5);
+  i ^= i >>> 12;
+  i ^= i >>> 21;
+  i = Math.imul(i, 0x93fc4795);
+  i ^= 0xdf6e307f;
+  i ^= i >>> 17;
+  i = Math.imul(i, 1 | (p >>> 18));
+  return (i >>> 0) * TWO_NEG_32;
+}
+
+/** Grid of a pattern of n samples: m columns × k rows with m·k ≥ n. */
+export function cmjGrid(n: number): { m: number; k: number } {
+  const m = Math.max(1, Math.ceil(Math.sqrt(n)));
+  const k = Math.max(1, Math.ceil(n / m));
+  return { m, k };
+}
+
+/**
+ * Sample s (0 ≤ s < n) of the 2-D correlated multi-jittered pattern p over an m×k grid (m·k ≥ n). The sample
+ * index is first permuted over all m·k strata, so with n < m·k each sample is still uniform over the square
+ * (no bias) while samples of one pattern stay in distinct strata. Writes x, y in [0, 1) to out[0], out[1].
+ */
+// The multipliers that derive sub-pattern ids from p are arbitrary odd constants (any odd value keeps the
+// permutations bijective).
+export function cmj(s: number, m: number, k: number, p: number, out: Float64Array): void {
+  const total = m * k;
+  s = permute(s, total, Math.imul(p, 0x51633e2d) >>> 0);
+  const sx = permute(s % m, m, Math.imul(p, 0x68bc21eb) >>> 0);
+  const sy = permute(Math.floor(s / m), k, Math.imul(p, 0x02e5be93) >>> 0);
+  const jx = randfloat(s, Math.imul(p, 0x967a889b) >>> 0);
+  const jy = randfloat(s, Math.imul(p, 0x368cc8b7) >>> 0);
+  // Column s % m and row s / m pick the cell; the permuted row/column indices pick the canonical
+  // sub-stratum inside it (Kensler's construction), so x and y are each stratified n-fold as well.
+  let x = ((s % m) + (sy + jx) / k) / m;
+  let y = (Math.floor(s / m) + (sx + jy) / m) / k;
+  // Guard the open interval against rounding up to exactly 1.
+  if (x >= 1) x = 0.9999999999999999;
+  if (y >= 1) y = 0.9999999999999999;
+  out[0] = x;
+  out[1] = y;
+}
