@@ -16,12 +16,20 @@ mkdir -p "$DATA_DIR"
 as_root_or_sudo() { if [ "$(id -u)" = 0 ]; then "$@"; else sudo "$@"; fi; }
 
 ensure_node_modules() {
-  local marker="node_modules/.tracewell-installed"
-  if [ ! -f "$marker" ] || [ package-lock.json -nt "$marker" ]; then
+  # The marker holds the hash of the lock file the tree was installed from. A fresh clone gets `npm ci`;
+  # an existing tree whose lock changed gets an incremental `npm install` (never a wipe of a tree in use).
+  local marker="node_modules/.tracewell-installed" want
+  want="$(sha1sum package-lock.json | cut -c1-40)"
+  if [ ! -d node_modules ]; then
     log "installing npm packages (npm ci)"
     npm ci --no-audit --no-fund --loglevel=error
-    touch "$marker"
+  elif [ "$(cat "$marker" 2>/dev/null)" != "$want" ]; then
+    log "package-lock.json changed: updating npm packages"
+    npm install --no-audit --no-fund --loglevel=error
+  else
+    return 0
   fi
+  echo "$want" >"$marker"
 }
 
 ensure_apt_package() { # $1 = probe path, $2.. = packages
