@@ -6,7 +6,7 @@ import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { type BrowserContext, chromium, type Page } from "playwright-core";
 
-export const BASE_URL = process.env.BASE_URL ?? "http://localhost:3100";
+export const BASE_URL = process.env.TRACEWELL_URL ?? "http://localhost:3100";
 
 export async function launchBrowser(): Promise<BrowserContext> {
   return chromium.launchPersistentContext(mkdtempSync(join(tmpdir(), "tracewell-chromium-")), {
