@@ -1,0 +1,221 @@
+/**
+ * The workspace's one source of truth: the scene text being edited (the editor and every form write to
+ * it), its validation, one undo history shared by all of them, the version the edit started from, and
+ * the viewing state (light balance, view mode, resolution scale, noise target) that never touches the JSON.
+ */
+import { parse as parseJson, type ParseError } from "jsonc-parser";
+import { createStore, type StoreApi } from "zustand/vanilla";
+import type { Scene } from "@tracer/scene/schema";
+import type { SceneIssue, SceneResult } from "@tracer/scene/validate";
+import { writeBackBalance } from "~/lib/workspace-balance";
+import { NEUTRAL_BALANCE, type GroupBalance } from "~/lib/workspace-image";
+import { setManyAtPaths, type PathSegment } from "~/lib/workspace-json";
+
+export type EditSource = "editor" | "form" | "balance" | "history" | "load" | "conflict";
+
+export type BaseVersion = { id: string; number: number; text: string };
+
+type HistoryEntry = { text: string; label: string };
+
+export type ResolutionScale = 1 | 0.5 | 0.25;
+export type ViewMode = "image" | "falseColour";
+
+export type WorkspaceState = {
+  sceneId: string;
+  canEdit: boolean;
+  /** The version this edit started from: a save names it as the parent. */
+  base: BaseVersion;
+  text: string;
+  /** Bumped on every text change; lets the editor tell its own echo from outside changes. */
+  revision: number;
+  lastSource: EditSource;
+  past: HistoryEntry[];
+  future: HistoryEntry[];
+  /** Parsed JSON of `text` when it is syntactically valid (forms edit it), else null. */
+  parsed: unknown;
+  issues: SceneIssue[];
+  /** The scene of the latest text that validated: the preview keeps rendering this while the text is broken. */
+  lastGood: { scene: Scene; text: string } | null;
+  balances: Record<string, GroupBalance>;
+  view: ViewMode;
+  scale: ResolutionScale;
+  /** Relative standard error at which rendering stops by itself (e.g. 0.02 = 2%); null = run to the target spp. */
+  noiseTarget: number | null;
+  lastNotice: string | null;
+
+  edit: (text: string, opts: { source: EditSource; label: string; coalesceKey?: string }) => void;
+  editPaths: (changes: { path: readonly PathSegment[]; value: unknown }[], opts: { label: string; coalesceKey?: string }) => void;
+  undo: () => void;
+  redo: () => void;
+  setBalance: (group: string, balance: Partial<GroupBalance>) => void;
+  resetBalance: (group?: string) => void;
+  writeBackBalance: () => { changed: number; notes: string[] };
+  setView: (view: ViewMode) => void;
+  setScale: (scale: ResolutionScale) => void;
+  setNoiseTarget: (t: number | null) => void;
+  /** After a successful save: the new version becomes the base; the text stays as typed. */
+  markSaved: (version: { id: string; number: number }) => void;
+  /** Keep my text but treat `head` as the version it starts from (resolving a conflict by keeping mine). */
+  rebaseOnto: (head: BaseVersion) => void;
+  /** Take someone else's version as both base and text (undoable: my text stays in the history). */
+  takeVersion: (head: BaseVersion, label: string) => void;
+};
+
+export type WorkspaceInit = {
+  sceneId: string;
+  canEdit: boolean;
+  base: BaseVersion;
+  /** Starting text when it differs from base.text (a restored local draft). */
+  text?: string;
+};
+
+export type WorkspaceDeps = {
+  validate: (text: string) => SceneResult;
+  now?: () => number;
+  /** Edits with the same coalesce key within this many ms merge into one undo step (typing, slider drags). */
+  coalesceMs?: number;
+  historyLimit?: number;
+};
+
+export type WorkspaceStore = StoreApi<WorkspaceState>;
+
+function analyse(text: string, validate: WorkspaceDeps["validate"]): { parsed: unknown; result: SceneResult } {
+  const errors: ParseError[] = [];
+  const parsed: unknown = parseJson(text, errors, { disallowComments: true, allowTrailingComma: false });
+  return { parsed: errors.length ? null : parsed, result: validate(text) };
+}
+
+export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): WorkspaceStore {
+  const now = deps.now ?? (() => Date.now());
+  const coalesceMs = deps.coalesceMs ?? 1200;
+  const historyLimit = deps.historyLimit ?? 300;
+  let lastEdit: { key: string; at: number } | null = null;
+
+  const startText = init.text ?? init.base.text;
+  const first = analyse(startText, deps.validate);
+  // If a restored draft does not validate, the base version's scene is still worth showing.
+  let firstGood: WorkspaceState["lastGood"] = first.result.ok ? { scene: first.result.scene, text: startText } : null;
+  if (!firstGood && init.text !== undefined) {
+    const baseResult = deps.validate(init.base.text);
+    if (baseResult.ok) firstGood = { scene: baseResult.scene, text: init.base.text };
+  }
+
+  return createStore<WorkspaceState>()((set, get) => {
+    /** Move to new text; `record` pushes the previous text onto the undo history. */
+    const apply = (text: string, source: EditSource, record: { label: string; coalesceKey?: string } | null) => {
+      const s = get();
+      if (text === s.text) return;
+      const a = analyse(text, deps.validate);
+      let past = s.past;
+      let future = s.future;
+      if (record) {
+        const t = now();
+        const merge = record.coalesceKey !== undefined && lastEdit?.key === record.coalesceKey && t - lastEdit.at <= coalesceMs && past.length > 0;
+        if (!merge) past = [...past, { text: s.text, label: record.label }].slice(-historyLimit);
+        future = [];
+        lastEdit = record.coalesceKey !== undefined ? { key: record.coalesceKey, at: t } : null;
+      } else {
+        lastEdit = null;
+      }
+      set({
+        text,
+        revision: s.revision + 1,
+        lastSource: source,
+        past,
+        future,
+        parsed: a.parsed,
+        issues: a.result.ok ? [] : a.result.issues,
+        lastGood: a.result.ok ? { scene: a.result.scene, text } : s.lastGood,
+      });
+    };
+
+    return {
+      sceneId: init.sceneId,
+      canEdit: init.canEdit,
+      base: init.base,
+      text: startText,
+      revision: 0,
+      lastSource: "load",
+      past: [],
+      future: [],
+      parsed: first.parsed,
+      issues: first.result.ok ? [] : first.result.issues,
+      lastGood: firstGood,
+      balances: {},
+      view: "image",
+      scale: 1,
+      noiseTarget: null,
+      lastNotice: null,
+
+      edit: (text, opts) => apply(text, opts.source, { label: opts.label, coalesceKey: opts.coalesceKey }),
+
+      editPaths: (changes, opts) => {
+        const next = setManyAtPaths(get().text, changes);
+        apply(next, "form", { label: opts.label, coalesceKey: opts.coalesceKey });
+      },
+
+      undo: () => {
+        const s = get();
+        const prev = s.past[s.past.length - 1];
+        if (!prev) return;
+        const future = [...s.future, { text: s.text, label: prev.label }];
+        const past = s.past.slice(0, -1);
+        apply(prev.text, "history", null);
+        set({ past, future, lastNotice: `Undid: ${prev.label}` });
+      },
+
+      redo: () => {
+        const s = get();
+        const next = s.future[s.future.length - 1];
+        if (!next) return;
+        const past = [...s.past, { text: s.text, label: next.label }];
+        const future = s.future.slice(0, -1);
+        apply(next.text, "history", null);
+        set({ past, future, lastNotice: `Redid: ${next.label}` });
+      },
+
+      setBalance: (group, balance) => {
+        const cur = get().balances[group] ?? NEUTRAL_BALANCE;
+        set({ balances: { ...get().balances, [group]: { ...cur, ...balance } } });
+      },
+
+      resetBalance: (group) => {
+        if (group === undefined) set({ balances: {} });
+        else {
+          const { [group]: _dropped, ...rest } = get().balances;
+          set({ balances: rest });
+        }
+      },
+
+      writeBackBalance: () => {
+        const s = get();
+        const good = s.lastGood;
+        if (!good || s.issues.length > 0) throw new Error("fix the scene's errors before writing the balance back");
+        const wb = writeBackBalance(s.text, good.scene, s.balances);
+        if (wb.changes.length === 0) return { changed: 0, notes: wb.notes };
+        apply(wb.text, "balance", { label: `write back light balance (${wb.changes.length} value${wb.changes.length === 1 ? "" : "s"})` });
+        // The new light values now carry the balance; keeping the gains would apply it twice.
+        set({ balances: {} });
+        return { changed: wb.changes.length, notes: wb.notes };
+      },
+
+      setView: (view) => set({ view }),
+      setScale: (scale) => set({ scale }),
+      setNoiseTarget: (noiseTarget) => set({ noiseTarget }),
+
+      markSaved: (version) => set({ base: { id: version.id, number: version.number, text: get().text } }),
+
+      rebaseOnto: (head) => set({ base: head }),
+
+      takeVersion: (head, label) => {
+        set({ base: head });
+        apply(head.text, "conflict", { label });
+      },
+    };
+  });
+}
+
+/** Text of a stored scene as the editor shows it. */
+export function sceneToText(scene: unknown): string {
+  return JSON.stringify(scene, null, 2) + "\n";
+}
