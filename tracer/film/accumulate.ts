@@ -20,6 +20,7 @@
  *   lo < 2^32, carried after every add: hi ≤ 2^22 · 2^30 + carries < 2^53).
  */
 import { luminance } from "../math/sampling";
+import type { FloatImage } from "../io/image";
 
 export const QUANT_SCALE = 4096;
 export const QUANT_MAX_RADIANCE = 524288;
@@ -43,8 +44,6 @@ export type Accumulation = {
   /** passes accumulated per pixel */
   counts: Float64Array;
 };
-
-type FloatImage = { width: number; height: number; data: Float32Array };
 
 export function createAccumulation(width: number, height: number, groupCount: number): Accumulation {
   if (!(width >= 1 && height >= 1 && groupCount >= 1)) {

@@ -1,0 +1,301 @@
+/**
+ * Ray–primitive intersection and BVH traversal over the compiled scene (node layout: bvh/layout.ts).
+ * Geometry is stored as float32; all arithmetic here is float64. Moving primitives are intersected by
+ * moving the ray origin back by velocity × time (the same as translating the primitive forward).
+ */
+import type { CompiledScene } from "../compile/types";
+import { PRIM_DISK, PRIM_GEOM_STRIDE, PRIM_INFO_STRIDE, PRIM_RECT, PRIM_SPHERE, PRIM_TRIANGLE } from "../compile/types";
+import { NODE_WORDS, TRAVERSAL_STACK_SIZE } from "../bvh/layout";
+
+/** A ray with unit direction; reused for every ray. */
+export class Ray {
+  ox = 0;
+  oy = 0;
+  oz = 0;
+  dx = 0;
+  dy = 1;
+  dz = 0;
+  tmax = Infinity;
+  time = 0;
+}
+
+/** Closest-hit record plus the surface data filled in by `surfaceAt`. */
+export class Hit {
+  t = Infinity;
+  prim = -1;
+  /** triangle barycentrics of v1, v2 (or rect parameters) */
+  u = 0;
+  v = 0;
+  px = 0;
+  py = 0;
+  pz = 0;
+  /** geometric normal: outward for spheres and boxes, u×v for rects, the disk normal, the winding normal for triangles (flipped to agree with vertex normals) */
+  ngx = 0;
+  ngy = 0;
+  ngz = 1;
+  /** shading normal, same side as ng */
+  nsx = 0;
+  nsy = 0;
+  nsz = 1;
+}
+
+/** Scratch for traversal; one per worker/thread. */
+export class TraceScratch {
+  readonly stack = new Uint32Array(TRAVERSAL_STACK_SIZE);
+  // candidate hit parameters written by intersectPrim
+  cu = 0;
+  cv = 0;
+}
+
+/** Distance to primitive `p` along the ray, in (0, tmax), or Infinity. Writes parameters to ts.cu/cv. */
+export function intersectPrim(
+  s: CompiledScene,
+  p: number,
+  ox: number,
+  oy: number,
+  oz: number,
+  dx: number,
+  dy: number,
+  dz: number,
+  time: number,
+  tmax: number,
+  ts: TraceScratch,
+): number {
+  const info = s.primInfo;
+  const ib = p * PRIM_INFO_STRIDE;
+  const motion = info[ib + 3];
+  if (motion >= 0) {
+    const vel = s.velocities;
+    ox -= vel[motion * 3] * time;
+    oy -= vel[motion * 3 + 1] * time;
+    oz -= vel[motion * 3 + 2] * time;
+  }
+  const g = s.primGeom;
+  const o = p * PRIM_GEOM_STRIDE;
+  const kind = info[ib];
+  if (kind === PRIM_TRIANGLE) {
+    // Möller & Trumbore, "Fast, Minimum Storage Ray-Triangle Intersection", JGT 2(1), 1997 (two-sided).
+    const e1x = g[o + 3], e1y = g[o + 4], e1z = g[o + 5];
+    const e2x = g[o + 6], e2y = g[o + 7], e2z = g[o + 8];
+    const pvx = dy * e2z - dz * e2y;
+    const pvy = dz * e2x - dx * e2z;
+    const pvz = dx * e2y - dy * e2x;
+    const det = e1x * pvx + e1y * pvy + e1z * pvz;
+    if (det === 0) return Infinity;
+    const inv = 1 / det;
+    const tx = ox - g[o], ty = oy - g[o + 1], tz = oz - g[o + 2];
+    const u = (tx * pvx + ty * pvy + tz * pvz) * inv;
+    if (u < 0 || u > 1) return Infinity;
+    const qx = ty * e1z - tz * e1y;
+    const qy = tz * e1x - tx * e1z;
+    const qz = tx * e1y - ty * e1x;
+    const v = (dx * qx + dy * qy + dz * qz) * inv;
+    if (v < 0 || u + v > 1) return Infinity;
+    const t = (e2x * qx + e2y * qy + e2z * qz) * inv;
+    if (!(t > 0 && t < tmax)) return Infinity;
+    ts.cu = u;
+    ts.cv = v;
+    return t;
+  }
+  if (kind === PRIM_SPHERE) {
+    // Geometric form with the closest-approach vector (better conditioned than the textbook quadratic).
+    const fx = ox - g[o], fy = oy - g[o + 1], fz = oz - g[o + 2];
+    const r = g[o + 3];
+    const b = fx * dx + fy * dy + fz * dz;
+    const lx = fx - b * dx, ly = fy - b * dy, lz = fz - b * dz;
+    const disc = r * r - (lx * lx + ly * ly + lz * lz);
+    if (disc < 0) return Infinity;
+    const q = Math.sqrt(disc);
+    let t = -b - q;
+    if (!(t > 0)) t = -b + q;
+    if (!(t > 0 && t < tmax)) return Infinity;
+    return t;
+  }
+  if (kind === PRIM_RECT) {
+    const wx = g[o + 9], wy = g[o + 10], wz = g[o + 11];
+    const den = wx * dx + wy * dy + wz * dz;
+    if (den === 0) return Infinity;
+    const t = (wx * (g[o] - ox) + wy * (g[o + 1] - oy) + wz * (g[o + 2] - oz)) / den;
+    if (!(t > 0 && t < tmax)) return Infinity;
+    const hx = ox + t * dx - g[o], hy = oy + t * dy - g[o + 1], hz = oz + t * dz - g[o + 2];
+    const ux = g[o + 3], uy = g[o + 4], uz = g[o + 5];
+    const vx = g[o + 6], vy = g[o + 7], vz = g[o + 8];
+    // parameters in the dual basis: a = w·(h × v), b = w·(u × h)
+    const a = wx * (hy * vz - hz * vy) + wy * (hz * vx - hx * vz) + wz * (hx * vy - hy * vx);
+    if (a < 0 || a > 1) return Infinity;
+    const bb = wx * (uy * hz - uz * hy) + wy * (uz * hx - ux * hz) + wz * (ux * hy - uy * hx);
+    if (bb < 0 || bb > 1) return Infinity;
+    ts.cu = a;
+    ts.cv = bb;
+    return t;
+  }
+  if (kind === PRIM_DISK) {
+    const nx = g[o + 3], ny = g[o + 4], nz = g[o + 5];
+    const den = nx * dx + ny * dy + nz * dz;
+    if (den === 0) return Infinity;
+    const cx = g[o], cy = g[o + 1], cz = g[o + 2];
+    const t = (nx * (cx - ox) + ny * (cy - oy) + nz * (cz - oz)) / den;
+    if (!(t > 0 && t < tmax)) return Infinity;
+    const hx = ox + t * dx - cx, hy = oy + t * dy - cy, hz = oz + t * dz - cz;
+    const r = g[o + 6];
+    if (hx * hx + hy * hy + hz * hz > r * r) return Infinity;
+    return t;
+  }
+  return Infinity;
+}
+
+/**
+ * Closest hit along the ray within (0, ray.tmax). Fills hit.t, hit.prim, hit.u, hit.v; returns false on a
+ * miss. With `anyHit` it stops at the first hit found (shadow rays).
+ */
+export function traceRay(s: CompiledScene, ray: Ray, hit: Hit, ts: TraceScratch, anyHit: boolean): boolean {
+  const nodes = s.bvh.nodes;
+  const words = s.bvh.words;
+  const primIdx = s.bvh.primIndices;
+  const stack = ts.stack;
+  const ox = ray.ox, oy = ray.oy, oz = ray.oz;
+  const dx = ray.dx, dy = ray.dy, dz = ray.dz;
+  const time = ray.time;
+  const ix = 1 / dx, iy = 1 / dy, iz = 1 / dz;
+  const negX = ix < 0, negY = iy < 0, negZ = iz < 0;
+  let tmax = ray.tmax;
+  let best = -1;
+  let bu = 0, bv = 0;
+  let sp = 0;
+  let node = 0;
+  for (;;) {
+    const nb = node * NODE_WORDS;
+    // slab test against the node box (moving primitives have swept boxes)
+    let t0 = ((negX ? nodes[nb + 3] : nodes[nb]) - ox) * ix;
+    let t1 = ((negX ? nodes[nb] : nodes[nb + 3]) - ox) * ix;
+    const ty0 = ((negY ? nodes[nb + 4] : nodes[nb + 1]) - oy) * iy;
+    const ty1 = ((negY ? nodes[nb + 1] : nodes[nb + 4]) - oy) * iy;
+    if (ty0 > t0) t0 = ty0;
+    if (ty1 < t1) t1 = ty1;
+    const tz0 = ((negZ ? nodes[nb + 5] : nodes[nb + 2]) - oz) * iz;
+    const tz1 = ((negZ ? nodes[nb + 2] : nodes[nb + 5]) - oz) * iz;
+    if (tz0 > t0) t0 = tz0;
+    if (tz1 < t1) t1 = tz1;
+    // a small relative tolerance keeps grazing rays from slipping between float32 boxes
+    if (t0 <= t1 * 1.0000001 + 1e-12 && t1 >= 0 && t0 < tmax) {
+      const meta = words[nb + 7];
+      const count = meta >>> 2;
+      if (count === 0) {
+        const axis = meta & 3;
+        const neg = axis === 0 ? negX : axis === 1 ? negY : negZ;
+        const right = words[nb + 6];
+        if (neg) {
+          stack[sp++] = node + 1;
+          node = right;
+        } else {
+          stack[sp++] = right;
+          node = node + 1;
+        }
+        continue;
+      }
+      const first = words[nb + 6];
+      for (let i = first; i < first + count; i++) {
+        const p = primIdx[i];
+        const t = intersectPrim(s, p, ox, oy, oz, dx, dy, dz, time, tmax, ts);
+        if (t < tmax) {
+          tmax = t;
+          best = p;
+          bu = ts.cu;
+          bv = ts.cv;
+          if (anyHit) {
+            hit.t = t;
+            hit.prim = p;
+            return true;
+          }
+        }
+      }
+    }
+    if (sp === 0) break;
+    node = stack[--sp];
+  }
+  if (best < 0) return false;
+  hit.t = tmax;
+  hit.prim = best;
+  hit.u = bu;
+  hit.v = bv;
+  return true;
+}
+
+/** Fill position and normals of hit (after traceRay found it). */
+export function surfaceAt(s: CompiledScene, ray: Ray, hit: Hit): void {
+  const t = hit.t;
+  const px = ray.ox + t * ray.dx;
+  const py = ray.oy + t * ray.dy;
+  const pz = ray.oz + t * ray.dz;
+  hit.px = px;
+  hit.py = py;
+  hit.pz = pz;
+  const p = hit.prim;
+  const ib = p * PRIM_INFO_STRIDE;
+  const g = s.primGeom;
+  const o = p * PRIM_GEOM_STRIDE;
+  const kind = s.primInfo[ib];
+  let nx = 0, ny = 0, nz = 1;
+  if (kind === PRIM_TRIANGLE) {
+    const e1x = g[o + 3], e1y = g[o + 4], e1z = g[o + 5];
+    const e2x = g[o + 6], e2y = g[o + 7], e2z = g[o + 8];
+    nx = e1y * e2z - e1z * e2y;
+    ny = e1z * e2x - e1x * e2z;
+    nz = e1x * e2y - e1y * e2x;
+  } else if (kind === PRIM_SPHERE) {
+    let cx = g[o], cy = g[o + 1], cz = g[o + 2];
+    const motion = s.primInfo[ib + 3];
+    if (motion >= 0) {
+      cx += s.velocities[motion * 3] * ray.time;
+      cy += s.velocities[motion * 3 + 1] * ray.time;
+      cz += s.velocities[motion * 3 + 2] * ray.time;
+    }
+    nx = px - cx;
+    ny = py - cy;
+    nz = pz - cz;
+  } else if (kind === PRIM_RECT) {
+    nx = g[o + 9];
+    ny = g[o + 10];
+    nz = g[o + 11];
+  } else {
+    nx = g[o + 3];
+    ny = g[o + 4];
+    nz = g[o + 5];
+  }
+  let inv = 1 / Math.sqrt(nx * nx + ny * ny + nz * nz);
+  nx *= inv;
+  ny *= inv;
+  nz *= inv;
+  let sx = nx, sy = ny, sz = nz;
+  const no = s.primInfo[ib + 4];
+  if (kind === PRIM_TRIANGLE && no >= 0) {
+    const N = s.normals;
+    const b1 = hit.u, b2 = hit.v, b0 = 1 - b1 - b2;
+    sx = b0 * N[no] + b1 * N[no + 3] + b2 * N[no + 6];
+    sy = b0 * N[no + 1] + b1 * N[no + 4] + b2 * N[no + 7];
+    sz = b0 * N[no + 2] + b1 * N[no + 5] + b2 * N[no + 8];
+    const l2 = sx * sx + sy * sy + sz * sz;
+    if (l2 > 0) {
+      inv = 1 / Math.sqrt(l2);
+      sx *= inv;
+      sy *= inv;
+      sz *= inv;
+      // vertex normals decide which side is outside when the winding disagrees with them
+      if (sx * nx + sy * ny + sz * nz < 0) {
+        nx = -nx;
+        ny = -ny;
+        nz = -nz;
+      }
+    } else {
+      sx = nx;
+      sy = ny;
+      sz = nz;
+    }
+  }
+  hit.ngx = nx;
+  hit.ngy = ny;
+  hit.ngz = nz;
+  hit.nsx = sx;
+  hit.nsy = sy;
+  hit.nsz = sz;
+}

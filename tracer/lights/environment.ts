@@ -1,0 +1,208 @@
+/**
+ * The environment: radiance arriving from infinitely far away, as a uniform colour, a sky gradient or an
+ * equirectangular map. Maps are importance-sampled by luminance with a piecewise-constant 2-D distribution
+ * (a marginal CDF over rows and a conditional CDF per row, each weighted by sinθ so the density is uniform
+ * in solid angle where the map is constant; the construction of Pharr, Jakob & Humphreys, "Physically Based
+ * Rendering", 3rd ed., §13.6.5 and §14.2.4).
+ *
+ * Map orientation: row 0 is straight up (+Y); the image's horizontal centre looks along −Z; u grows with
+ * azimuth φ = atan2(x, −z); `rotationY` turns the map about +Y (right-hand rule, degrees).
+ */
+import type { CompiledScene } from "../compile/types";
+import { ENV_MAP, ENV_SKY, ENV_UNIFORM } from "../compile/types";
+import { INV_FOUR_PI, uniformSphere, luminance } from "../math/sampling";
+import type { LightSample } from "./lights";
+
+const PI = Math.PI;
+
+/** Radiance arriving from direction (dx,dy,dz) (unit, pointing away from the scene) into out[0..2]. */
+export function envRadiance(s: CompiledScene, dx: number, dy: number, dz: number, out: Float64Array): void {
+  const t = s.envType;
+  const P = s.envParams;
+  if (t === ENV_UNIFORM) {
+    out[0] = P[0];
+    out[1] = P[1];
+    out[2] = P[2];
+    return;
+  }
+  if (t === ENV_SKY) {
+    if (dy < 0) {
+      out[0] = P[6];
+      out[1] = P[7];
+      out[2] = P[8];
+      return;
+    }
+    const k = dy > 1 ? 1 : dy;
+    out[0] = P[3] + (P[0] - P[3]) * k;
+    out[1] = P[4] + (P[1] - P[4]) * k;
+    out[2] = P[5] + (P[2] - P[5]) * k;
+    return;
+  }
+  if (t === ENV_MAP) {
+    const W = s.envWidth;
+    const H = s.envHeight;
+    const c = P[1];
+    const sn = P[2];
+    // rotate the direction by −rotationY into map space
+    const mx = c * dx - sn * dz;
+    const mz = sn * dx + c * dz;
+    const my = dy;
+    const phi = Math.atan2(mx, -mz);
+    const theta = Math.acos(my > 1 ? 1 : my < -1 ? -1 : my);
+    let col = Math.floor(((phi + PI) / (2 * PI)) * W);
+    let row = Math.floor((theta / PI) * H);
+    if (col >= W) col = W - 1;
+    if (col < 0) col = 0;
+    if (row >= H) row = H - 1;
+    if (row < 0) row = 0;
+    const i = (row * W + col) * 3;
+    const scale = P[0];
+    out[0] = s.envMap[i] * scale;
+    out[1] = s.envMap[i + 1] * scale;
+    out[2] = s.envMap[i + 2] * scale;
+    return;
+  }
+  out[0] = 0;
+  out[1] = 0;
+  out[2] = 0;
+}
+
+/** Solid-angle pdf of sampleEnv producing direction (dx,dy,dz) (not including the choice probability). */
+export function envPdf(s: CompiledScene, dx: number, dy: number, dz: number): number {
+  const t = s.envType;
+  if (t === ENV_UNIFORM || t === ENV_SKY) return INV_FOUR_PI;
+  if (t !== ENV_MAP || s.envFuncMean <= 0) return 0;
+  const W = s.envWidth;
+  const H = s.envHeight;
+  const c = s.envParams[1];
+  const sn = s.envParams[2];
+  const mx = c * dx - sn * dz;
+  const mz = sn * dx + c * dz;
+  const my = dy > 1 ? 1 : dy < -1 ? -1 : dy;
+  const phi = Math.atan2(mx, -mz);
+  const theta = Math.acos(my);
+  const sinT = Math.sin(theta);
+  if (sinT <= 0) return 0;
+  let col = Math.floor(((phi + PI) / (2 * PI)) * W);
+  let row = Math.floor((theta / PI) * H);
+  if (col >= W) col = W - 1;
+  if (col < 0) col = 0;
+  if (row >= H) row = H - 1;
+  if (row < 0) row = 0;
+  const pdfUV = s.envFunc[row * W + col] / s.envFuncMean;
+  return pdfUV / (2 * PI * PI * sinT);
+}
+
+/** Index i with cdf[i] ≤ u < cdf[i+1] in a CDF of n+1 entries starting at `base` (cdf[base] = 0, cdf[base+n] = 1). */
+function findInterval(cdf: Float64Array, base: number, n: number, u: number): number {
+  let lo = 0;
+  let hi = n - 1;
+  while (lo < hi) {
+    const mid = (lo + hi + 1) >>> 1;
+    if (cdf[base + mid] <= u) lo = mid;
+    else hi = mid - 1;
+  }
+  // skip zero-width intervals so the chosen cell has positive density
+  while (lo < n - 1 && cdf[base + lo + 1] <= cdf[base + lo]) lo++;
+  return lo;
+}
+
+/** Sample an environment direction into ls (dist = Infinity). Returns false if nothing can be sampled. */
+export function sampleEnv(s: CompiledScene, u1: number, u2: number, ls: LightSample): boolean {
+  const t = s.envType;
+  ls.delta = false;
+  ls.dist = Infinity;
+  const tmp = ls.tmp;
+  if (t === ENV_UNIFORM || t === ENV_SKY) {
+    uniformSphere(u1, u2, tmp);
+    ls.wx = tmp[0];
+    ls.wy = tmp[1];
+    ls.wz = tmp[2];
+    ls.pdf = INV_FOUR_PI;
+    envRadiance(s, tmp[0], tmp[1], tmp[2], tmp);
+    ls.r = tmp[0];
+    ls.g = tmp[1];
+    ls.b = tmp[2];
+    return true;
+  }
+  if (t !== ENV_MAP || s.envFuncMean <= 0) return false;
+  const W = s.envWidth;
+  const H = s.envHeight;
+  const marg = s.envMarginal;
+  const row = findInterval(marg, 0, H, u2);
+  const dv = (u2 - marg[row]) / (marg[row + 1] - marg[row]);
+  const v = (row + Math.min(Math.max(dv, 0), 1)) / H;
+  const cond = s.envConditional;
+  const base = row * (W + 1);
+  const col = findInterval(cond, base, W, u1);
+  const du = (u1 - cond[base + col]) / (cond[base + col + 1] - cond[base + col]);
+  const u = (col + Math.min(Math.max(du, 0), 1)) / W;
+  const theta = v * PI;
+  const phi = u * 2 * PI - PI;
+  const sinT = Math.sin(theta);
+  if (sinT <= 0) return false;
+  const pdfUV = s.envFunc[row * W + col] / s.envFuncMean;
+  if (!(pdfUV > 0)) return false;
+  // map-space direction, then rotate by +rotationY into the world
+  const mx = sinT * Math.sin(phi);
+  const my = Math.cos(theta);
+  const mz = -sinT * Math.cos(phi);
+  const c = s.envParams[1];
+  const sn = s.envParams[2];
+  ls.wx = c * mx + sn * mz;
+  ls.wy = my;
+  ls.wz = -sn * mx + c * mz;
+  ls.pdf = pdfUV / (2 * PI * PI * sinT);
+  const i = (row * W + col) * 3;
+  const scale = s.envParams[0];
+  ls.r = s.envMap[i] * scale;
+  ls.g = s.envMap[i + 1] * scale;
+  ls.b = s.envMap[i + 2] * scale;
+  return true;
+}
+
+/**
+ * Build the sampling tables of an equirectangular map (RGB, row 0 = top). Returns the per-pixel density
+ * (luminance·sinθ at the row centre), the marginal and conditional CDFs, its mean, and the map's average
+ * radiance luminance over the sphere (for the light-choice power estimate).
+ */
+export function buildEnvDistribution(
+  map: Float32Array,
+  W: number,
+  H: number,
+): { func: Float32Array; marginal: Float64Array; conditional: Float64Array; funcMean: number; meanLuminance: number } {
+  const func = new Float32Array(W * H);
+  const conditional = new Float64Array(H * (W + 1));
+  const rowInt = new Float64Array(H);
+  let lumWeighted = 0;
+  let sinSum = 0;
+  for (let r = 0; r < H; r++) {
+    const sinT = Math.sin(((r + 0.5) / H) * PI);
+    let acc = 0;
+    const base = r * (W + 1);
+    conditional[base] = 0;
+    for (let c = 0; c < W; c++) {
+      const i = (r * W + c) * 3;
+      const y = Math.max(0, luminance(map[i], map[i + 1], map[i + 2]));
+      const f = y * sinT;
+      func[r * W + c] = f;
+      acc += func[r * W + c]; // the float32-rounded value, so the pdf matches the CDF exactly
+      conditional[base + c + 1] = acc;
+      lumWeighted += f;
+      sinSum += sinT;
+    }
+    rowInt[r] = acc / W;
+    if (acc > 0) for (let c = 1; c <= W; c++) conditional[base + c] /= acc;
+    else for (let c = 1; c <= W; c++) conditional[base + c] = c / W;
+  }
+  const marginal = new Float64Array(H + 1);
+  let total = 0;
+  for (let r = 0; r < H; r++) {
+    total += rowInt[r];
+    marginal[r + 1] = total;
+  }
+  if (total > 0) for (let r = 1; r <= H; r++) marginal[r] /= total;
+  else for (let r = 1; r <= H; r++) marginal[r] = r / H;
+  const funcMean = total / H;
+  return { func, marginal, conditional, funcMean, meanLuminance: sinSum > 0 ? lumWeighted / sinSum : 0 };
+}
