@@ -1,0 +1,66 @@
+/**
+ * Batch closest-hit query for tools and benchmarks.
+ *
+ *   const mesh = buildTriangleBvh(positions, indices);   // xyz per vertex, 3 indices per triangle
+ *   intersectRays(mesh, rays, out);                      // rays: ox,oy,oz,dx,dy,dz,tmin,tmax per ray
+ *   // out: t,u,v,triangle per ray; t = Infinity and triangle = -1 on a miss
+ *
+ * u and v are the barycentric weights of the triangle's second and third vertex. Triangle indices
+ * are written as float32, exact up to 2^24 triangles (far above the scene limits).
+ */
+import { buildBvh, type BuildBvhOptions } from "./build";
+import { closestHit, createTraversalScratch, type TriangleBvh } from "./traverse";
+
+export type { TriangleBvh } from "./traverse";
+
+export function buildTriangleBvh(positions: Float32Array, indices: Uint32Array, options?: BuildBvhOptions): TriangleBvh {
+  if (indices.length % 3 !== 0) throw new Error(`buildTriangleBvh: indices length ${indices.length} is not a multiple of 3`);
+  if (positions.length % 3 !== 0) throw new Error(`buildTriangleBvh: positions length ${positions.length} is not a multiple of 3`);
+  const triCount = indices.length / 3;
+  const vertexCount = positions.length / 3;
+  const bounds = new Float32Array(triCount * 6);
+  for (let t = 0; t < triCount; t++) {
+    const ia = indices[t * 3], ib = indices[t * 3 + 1], ic = indices[t * 3 + 2];
+    if (ia >= vertexCount || ib >= vertexCount || ic >= vertexCount) {
+      throw new Error(`buildTriangleBvh: triangle ${t} refers to vertex ${Math.max(ia, ib, ic)} but there are ${vertexCount} vertices`);
+    }
+    const a = ia * 3, b = ib * 3, c = ic * 3, o = t * 6;
+    for (let k = 0; k < 3; k++) {
+      const pa = positions[a + k], pb = positions[b + k], pc = positions[c + k];
+      bounds[o + k] = pa < pb ? (pa < pc ? pa : pc) : pb < pc ? pb : pc;
+      bounds[o + 3 + k] = pa > pb ? (pa > pc ? pa : pc) : pb > pc ? pb : pc;
+    }
+  }
+  const bvh = buildBvh(bounds, options);
+  const tris = new Float32Array(triCount * 9);
+  const order = bvh.primIndices;
+  for (let k = 0; k < triCount; k++) {
+    const t = order[k];
+    const a = indices[t * 3] * 3, b = indices[t * 3 + 1] * 3, c = indices[t * 3 + 2] * 3, q = k * 9;
+    const ax = positions[a], ay = positions[a + 1], az = positions[a + 2];
+    tris[q] = ax; tris[q + 1] = ay; tris[q + 2] = az;
+    tris[q + 3] = positions[b] - ax; tris[q + 4] = positions[b + 1] - ay; tris[q + 5] = positions[b + 2] - az;
+    tris[q + 6] = positions[c] - ax; tris[q + 7] = positions[c + 1] - ay; tris[q + 8] = positions[c + 2] - az;
+  }
+  return { bvh, tris, triCount };
+}
+
+const scratch = createTraversalScratch();
+
+/** Closest hit for every ray; returns the number of rays that hit. */
+export function intersectRays(mesh: TriangleBvh, rays: Float32Array, out: Float32Array): number {
+  if (rays.length % 8 !== 0) throw new Error(`intersectRays: rays length ${rays.length} is not a multiple of 8`);
+  const n = rays.length / 8;
+  if (out.length < n * 4) throw new Error(`intersectRays: out holds ${out.length} floats but ${n} rays need ${n * 4}`);
+  let hits = 0;
+  for (let i = 0; i < n; i++) {
+    const r = i * 8;
+    if (closestHit(mesh, rays[r], rays[r + 1], rays[r + 2], rays[r + 3], rays[r + 4], rays[r + 5], rays[r + 6], rays[r + 7], out, i * 4, scratch)) hits++;
+  }
+  return hits;
+}
+
+/** Bytes held by a triangle BVH (nodes, leaf order map, triangle data). */
+export function triangleBvhByteLength(mesh: TriangleBvh): number {
+  return mesh.bvh.nodes.byteLength + mesh.bvh.primIndices.byteLength + mesh.tris.byteLength;
+}
