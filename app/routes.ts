@@ -6,6 +6,24 @@ export default [
   route("healthz", "routes/healthz.ts"),
   route("dev/outbox", "routes/dev.outbox.tsx"),
 
+  // API v1 (resource routes; JSON errors; Bearer tokens)
+  route("api/v1/openapi.json", "routes/api.v1.openapi[.]json.ts"),
+  route("api/v1/projects", "routes/api.v1.projects.ts"),
+  route("api/v1/projects/:projectId", "routes/api.v1.projects.$projectId.ts"),
+  route("api/v1/projects/:projectId/scenes", "routes/api.v1.projects.$projectId.scenes.ts"),
+  route("api/v1/projects/:projectId/renders", "routes/api.v1.projects.$projectId.renders.ts"),
+  route("api/v1/scenes/:sceneId", "routes/api.v1.scenes.$sceneId.ts"),
+  route("api/v1/scenes/:sceneId/versions", "routes/api.v1.scenes.$sceneId.versions.ts"),
+  route("api/v1/versions/:versionId", "routes/api.v1.versions.$versionId.ts"),
+  route("api/v1/renders", "routes/api.v1.renders.ts"),
+  route("api/v1/renders/:renderId", "routes/api.v1.renders.$renderId.ts"),
+  route("api/v1/renders/:renderId/groups/:group", "routes/api.v1.renders.$renderId.groups.$group.ts"),
+  route("api/v1/renders/:renderId/:file", "routes/api.v1.renders.$renderId.$file.ts"),
+  route("api/v1/*", "routes/api.v1.$.ts"),
+  route("login", "routes/login.tsx"),
+  route("signup", "routes/signup.tsx"),
+  route("logout", "routes/logout.tsx"),
+
   layout("routes/app-shell.tsx", [
     route("projects", "routes/projects._index.tsx"),
   ]),
