@@ -23,8 +23,22 @@ export default [
   route("login", "routes/login.tsx"),
   route("signup", "routes/signup.tsx"),
   route("logout", "routes/logout.tsx"),
+  route("forgot-password", "routes/forgot-password.tsx"),
+  route("reset-password/:token", "routes/reset-password.$token.tsx"),
+  route("invitations/:token", "routes/invitations.$token.tsx"),
 
   layout("routes/app-shell.tsx", [
     route("projects", "routes/projects._index.tsx"),
+    route("account", "routes/account.tsx"),
+    // One project: header and tab bar. Tabs (renders, assets, sharing, ...) are added as children here.
+    route("projects/:projectId", "routes/projects.$projectId.tsx", [
+      index("routes/projects.$projectId._index.tsx"),
+      route("members", "routes/projects.$projectId.members.tsx"),
+      route("activity", "routes/projects.$projectId.activity.tsx"),
+      route("scenes/:sceneId", "routes/projects.$projectId.scenes.$sceneId.tsx"),
+    ]),
+    // Scenes, versions, renders, assets, sharing (A3); move under the projects/:projectId layout when it lands.
+    route("projects/:projectId/scenes/:sceneId/history", "routes/projects.$projectId.scenes.$sceneId.history.tsx"),
+    route("projects/:projectId/scenes/:sceneId/compare", "routes/projects.$projectId.scenes.$sceneId.compare.tsx"),
   ]),
 ] satisfies RouteConfig;
