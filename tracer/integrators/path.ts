@@ -150,6 +150,9 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
     const lwz = wox * nsx + woy * nsy + woz * nsz;
     const px = hit.px, py = hit.py, pz = hit.pz;
 
+    // A whitted path ends at a diffuse surface, so its light sample has no BSDF sample to share with.
+    const endsHere = whitted && type === MAT_DIFFUSE;
+
     // --- next-event estimation (one light or the environment)
     if (!isDeltaMaterial(mats, mo) && (s.lightCount > 0 || s.envPick > 0)) {
       const uPick = rng.next();
@@ -191,7 +194,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
             sh.tmax = ls.dist === Infinity ? Infinity : ls.dist * (1 - 1e-6) - 2 * eps;
             if (!traceRay(s, sh, sc.shadowHit, sc.trace, true)) {
               const pl = pickProb * ls.pdf;
-              const w = mis && !ls.delta ? powerHeuristic(pl, bs.pdf) : 1;
+              const w = mis && !ls.delta && !endsHere ? powerHeuristic(pl, bs.pdf) : 1;
               const k = w / pl;
               const g = group * 3;
               out[g] += tr * bs.r * ls.r * k;
@@ -203,7 +206,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
       }
     }
 
-    if (whitted && type === MAT_DIFFUSE) return;
+    if (endsHere) return;
 
     // --- continue the path by sampling the BSDF
     rng.seek(CAMERA_DIMS + (depth - 1) * DIMS_PER_VERTEX + 3);
