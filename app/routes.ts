@@ -36,9 +36,8 @@ export default [
       route("members", "routes/projects.$projectId.members.tsx"),
       route("activity", "routes/projects.$projectId.activity.tsx"),
       route("scenes/:sceneId", "routes/projects.$projectId.scenes.$sceneId.tsx"),
+      route("scenes/:sceneId/history", "routes/projects.$projectId.scenes.$sceneId.history.tsx"),
+      route("scenes/:sceneId/compare", "routes/projects.$projectId.scenes.$sceneId.compare.tsx"),
     ]),
-    // Scenes, versions, renders, assets, sharing (A3); move under the projects/:projectId layout when it lands.
-    route("projects/:projectId/scenes/:sceneId/history", "routes/projects.$projectId.scenes.$sceneId.history.tsx"),
-    route("projects/:projectId/scenes/:sceneId/compare", "routes/projects.$projectId.scenes.$sceneId.compare.tsx"),
   ]),
 ] satisfies RouteConfig;
