@@ -257,6 +257,7 @@ export function compileScene(scene: Scene, assets: LoadedAssets = new Map()): Co
     if (l.type === "point") {
       lights[o] = LIGHT_POINT;
       lights[o + 2] = 0;
+      lights[o + 21] = -1;
       lights.set(l.intensity, o + 3);
       lights.set(l.position, o + 7);
       lightPower.push(4 * Math.PI * luminance(l.intensity[0], l.intensity[1], l.intensity[2]));
@@ -293,7 +294,11 @@ export function compileScene(scene: Scene, assets: LoadedAssets = new Map()): Co
       lights[o + 19] = shape.radius;
     }
     // Visible lights are surfaces rays can hit; invisible ones exist only for next-event estimation.
-    if (l.visible) prims.add(kind, -1, li, -1, -1, geom);
+    lights[o + 21] = -1;
+    if (l.visible) {
+      lights[o + 21] = prims.count;
+      prims.add(kind, -1, li, -1, -1, geom);
+    }
     lightPower.push(Math.PI * area * luminance(rad[0], rad[1], rad[2]));
   });
 
@@ -350,12 +355,12 @@ export function compileScene(scene: Scene, assets: LoadedAssets = new Map()): Co
   // --- environment
   let envType = ENV_NONE;
   const envParams = new Float64Array(12);
-  let envMap = new Float32Array(0);
+  let envMap: Float32Array = new Float32Array(0);
   let envWidth = 0;
   let envHeight = 0;
-  let envMarginal = new Float64Array(0);
-  let envConditional = new Float64Array(0);
-  let envFunc = new Float32Array(0);
+  let envMarginal: Float64Array = new Float64Array(0);
+  let envConditional: Float64Array = new Float64Array(0);
+  let envFunc: Float32Array = new Float32Array(0);
   let envFuncMean = 0;
   let envMeanLum = 0;
   if (env) {

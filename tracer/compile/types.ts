@@ -40,7 +40,8 @@ export const LIGHT_POINT = 3;
  *   0 kind, 1 group index, 2 visible (1/0), 3..5 radiance (area) or intensity (point), 6 area,
  *   7..9 position (rect corner p0 / disk centre / sphere centre / point position), 10..12 rect u,
  *   13..15 rect v, 16..18 unit front normal (rect, disk), 19 radius (disk, sphere),
- *   20 probability of choosing this light for next-event estimation, 21 unused
+ *   20 probability of choosing this light for next-event estimation, 21 its primitive index (-1 if it
+ *   has none: point lights and invisible lights)
  */
 export const LIGHT_STRIDE = 22;
 

@@ -146,9 +146,11 @@ export function intersectPrim(
 
 /**
  * Closest hit along the ray within (0, ray.tmax). Fills hit.t, hit.prim, hit.u, hit.v; returns false on a
- * miss. With `anyHit` it stops at the first hit found (shadow rays).
+ * miss. With `anyHit` it stops at the first hit found (shadow rays). Primitive `skip` (or -1) is ignored:
+ * a shadow ray aimed at a point on a light must not be stopped by that light's own surface, which
+ * rounding near its silhouette would otherwise do.
  */
-export function traceRay(s: CompiledScene, ray: Ray, hit: Hit, ts: TraceScratch, anyHit: boolean): boolean {
+export function traceRay(s: CompiledScene, ray: Ray, hit: Hit, ts: TraceScratch, anyHit: boolean, skip = -1): boolean {
   const nodes = s.bvh.nodes;
   const words = s.bvh.words;
   const primIdx = s.bvh.primIndices;
@@ -196,6 +198,7 @@ export function traceRay(s: CompiledScene, ray: Ray, hit: Hit, ts: TraceScratch,
       const first = words[nb + 6];
       for (let i = first; i < first + count; i++) {
         const p = primIdx[i];
+        if (p === skip) continue;
         const t = intersectPrim(s, p, ox, oy, oz, dx, dy, dz, time, tmax, ts);
         if (t < tmax) {
           tmax = t;

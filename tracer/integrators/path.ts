@@ -163,6 +163,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
       let pickProb = 0;
       let group = 0;
       let mis = true;
+      let skip = -1;
       if (pick === -2) {
         ok = sampleEnv(s, u1, u2, ls);
         pickProb = s.envPick;
@@ -172,6 +173,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
         const lo = pick * LIGHT_STRIDE;
         pickProb = lights[lo + 20];
         group = lights[lo + 1];
+        skip = lights[lo + 21];
         // BSDF sampling can reach a light only if rays can hit it (visible, not a point)
         mis = lights[lo] !== LIGHT_POINT && lights[lo + 2] === 1;
       }
@@ -192,7 +194,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
             sh.dz = wz;
             sh.time = ray.time;
             sh.tmax = ls.dist === Infinity ? Infinity : ls.dist * (1 - 1e-6) - 2 * eps;
-            if (!traceRay(s, sh, sc.shadowHit, sc.trace, true)) {
+            if (!traceRay(s, sh, sc.shadowHit, sc.trace, true, skip)) {
               const pl = pickProb * ls.pdf;
               const w = mis && !ls.delta && !endsHere ? powerHeuristic(pl, bs.pdf) : 1;
               const k = w / pl;
