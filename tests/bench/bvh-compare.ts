@@ -1,0 +1,141 @@
+/**
+ * BVH comparison: our builder and batch closest-hit query against three-mesh-bvh (a general-purpose
+ * raycasting BVH for three.js) on the same mesh and the same rays, single-threaded, in one process.
+ */
+import { BufferAttribute, BufferGeometry, DoubleSide, Ray, Vector3 } from "three";
+import { CENTER, MeshBVH, SAH } from "three-mesh-bvh";
+import { buildTriangleBvh, intersectRays, triangleBvhByteLength } from "../../tracer/bvh/batch";
+import { bounceRays, sphereRays, type BenchMesh } from "./meshes";
+
+export type RaySetFigures = {
+  name: string;
+  rays: number;
+  hits: number;
+  oursMraysPerSec: number;
+  threeSahMraysPerSec: number;
+  threeCenterMraysPerSec: number;
+  ratioToThreeSah: number;
+  ratioToThreeCenter: number;
+  /** rays whose closest-hit distance differs between the libraries (relative 1e-4) */
+  disagreements: number;
+};
+
+export type MeshFigures = {
+  mesh: string;
+  triangles: number;
+  buildMs: { ours: number; threeSah: number; threeCenter: number };
+  buildRatio: { threeSahOverOurs: number; oursOverThreeCenter: number };
+  bytesPerTriangle: { ours: number; oursWithMesh: number };
+  nodes: number;
+  raySets: RaySetFigures[];
+};
+
+const now = (): number => performance.now();
+
+function bestOf(runs: number, fn: () => void): number {
+  let best = Infinity;
+  for (let i = 0; i < runs; i++) {
+    const t0 = now();
+    fn();
+    best = Math.min(best, now() - t0);
+  }
+  return best;
+}
+
+/** Closest hits with three-mesh-bvh's raycastFirst (double-sided, same tmin/tmax), written like ours. */
+function threeIntersect(bvh: MeshBVH, rays: Float32Array, out: Float32Array): number {
+  const ray = new Ray(new Vector3(), new Vector3());
+  const n = rays.length / 8;
+  let hits = 0;
+  for (let i = 0; i < n; i++) {
+    const r = i * 8;
+    ray.origin.set(rays[r]!, rays[r + 1]!, rays[r + 2]!);
+    ray.direction.set(rays[r + 3]!, rays[r + 4]!, rays[r + 5]!);
+    const hit = bvh.raycastFirst(ray, DoubleSide, rays[r + 6]!, rays[r + 7]!);
+    if (hit) {
+      out[i * 4] = hit.distance;
+      out[i * 4 + 3] = hit.faceIndex ?? -1;
+      hits++;
+    } else {
+      out[i * 4] = Infinity;
+      out[i * 4 + 3] = -1;
+    }
+  }
+  return hits;
+}
+
+function timeRays(fn: () => void, rays: number, minMs: number): number {
+  // Repeat until at least minMs has passed so short sets are not dominated by timer noise.
+  let reps = 0;
+  const t0 = now();
+  do { fn(); reps++; } while (now() - t0 < minMs);
+  return (rays * reps) / ((now() - t0) / 1000) / 1e6;
+}
+
+export function compareMesh(mesh: BenchMesh, opts: { rays: number; buildRuns: number; minMs: number; rounds: number; log: (s: string) => void }): MeshFigures {
+  const { positions, indices } = mesh;
+  const triangles = indices.length / 3;
+  // MeshBVH reorders its geometry's index buffer in place, so each three-mesh-bvh tree gets its own
+  // copy of the mesh (a shared one would be scrambled by the next build).
+  const geometryFor = (): BufferGeometry => {
+    const g = new BufferGeometry();
+    g.setAttribute("position", new BufferAttribute(positions.slice(), 3));
+    g.setIndex(new BufferAttribute(indices.slice(), 1));
+    return g;
+  };
+
+  // Warm both builders once on this mesh so the timed runs compare optimised code with optimised code.
+  let ours = buildTriangleBvh(positions, indices);
+  const sahGeometry = geometryFor(), centerGeometry = geometryFor();
+  let threeSah = new MeshBVH(sahGeometry, { strategy: SAH });
+  let threeCenter = new MeshBVH(centerGeometry, { strategy: CENTER });
+  const buildOurs = bestOf(opts.buildRuns, () => { ours = buildTriangleBvh(positions, indices); });
+  const buildSah = bestOf(opts.buildRuns, () => { threeSah = new MeshBVH(sahGeometry, { strategy: SAH }); });
+  const buildCenter = bestOf(opts.buildRuns, () => { threeCenter = new MeshBVH(centerGeometry, { strategy: CENTER }); });
+
+  const primary = sphereRays(positions, opts.rays, 1);
+  const primaryOut = new Float32Array(opts.rays * 4);
+  intersectRays(ours, primary, primaryOut);
+  const bounce = bounceRays(mesh, primary, primaryOut, 2);
+  const sets: [string, Float32Array][] = [["sphere", primary], ["bounce", bounce]];
+
+  const raySets: RaySetFigures[] = [];
+  for (const [name, rays] of sets) {
+    const n = rays.length / 8;
+    const a = new Float32Array(n * 4), b = new Float32Array(n * 4);
+    const hits = intersectRays(ours, rays, a);
+    threeIntersect(threeSah, rays, b);
+    let disagreements = 0;
+    for (let i = 0; i < n; i++) {
+      const ta = a[i * 4]!, tb = b[i * 4]!;
+      if (ta === Infinity || tb === Infinity ? ta !== tb : Math.abs(ta - tb) > 1e-4 * Math.max(1, tb)) disagreements++;
+    }
+    // Interleaved rounds, best of each: the machine is shared, so load drifts during a run.
+    let oursM = 0, sahM = 0, centerM = 0;
+    for (let round = 0; round < opts.rounds; round++) {
+      oursM = Math.max(oursM, timeRays(() => intersectRays(ours, rays, a), n, opts.minMs));
+      sahM = Math.max(sahM, timeRays(() => threeIntersect(threeSah, rays, b), n, opts.minMs));
+      centerM = Math.max(centerM, timeRays(() => threeIntersect(threeCenter, rays, b), n, opts.minMs));
+    }
+    const fig: RaySetFigures = {
+      name, rays: n, hits,
+      oursMraysPerSec: oursM, threeSahMraysPerSec: sahM, threeCenterMraysPerSec: centerM,
+      ratioToThreeSah: oursM / sahM, ratioToThreeCenter: oursM / centerM, disagreements,
+    };
+    raySets.push(fig);
+    opts.log(`  ${mesh.name.padEnd(12)} ${name.padEnd(7)} ${String(n).padStart(7)} rays  ours ${oursM.toFixed(2).padStart(6)} Mrays/s  three-mesh-bvh SAH ${sahM.toFixed(2).padStart(6)} (×${fig.ratioToThreeSah.toFixed(1)})  CENTER ${centerM.toFixed(2).padStart(6)} (×${fig.ratioToThreeCenter.toFixed(1)})  disagreements ${disagreements}`);
+  }
+  const oursBytes = triangleBvhByteLength(ours);
+  const fig: MeshFigures = {
+    mesh: mesh.name,
+    triangles,
+    buildMs: { ours: buildOurs, threeSah: buildSah, threeCenter: buildCenter },
+    buildRatio: { threeSahOverOurs: buildSah / buildOurs, oursOverThreeCenter: buildOurs / buildCenter },
+    bytesPerTriangle: { ours: oursBytes / triangles, oursWithMesh: (oursBytes + positions.byteLength + indices.byteLength) / triangles },
+    nodes: ours.bvh.nodeCount,
+    raySets,
+  };
+  opts.log(`  ${mesh.name.padEnd(12)} build   ${String(triangles).padStart(7)} tris  ours ${buildOurs.toFixed(0).padStart(5)} ms  three-mesh-bvh SAH ${buildSah.toFixed(0).padStart(5)} ms (${fig.buildRatio.threeSahOverOurs.toFixed(2)}× ours)  CENTER ${buildCenter.toFixed(0).padStart(5)} ms (ours ${fig.buildRatio.oursOverThreeCenter.toFixed(2)}× it)  ${fig.bytesPerTriangle.ours.toFixed(1)} B/tri (+mesh ${fig.bytesPerTriangle.oursWithMesh.toFixed(1)})`);
+  for (const g of [sahGeometry, centerGeometry]) g.dispose();
+  return fig;
+}
