@@ -27,6 +27,10 @@ export default [
   route("reset-password/:token", "routes/reset-password.$token.tsx"),
   route("invitations/:token", "routes/invitations.$token.tsx"),
 
+  // Resource routes of the render library (A3).
+  route("projects/:projectId/renders/publish", "routes/projects.$projectId.renders.publish.ts"),
+  route("projects/:projectId/renders/:renderId/files/:file", "routes/projects.$projectId.renders.$renderId.files.$file.ts"),
+
   layout("routes/app-shell.tsx", [
     route("projects", "routes/projects._index.tsx"),
     route("account", "routes/account.tsx"),
@@ -38,6 +42,7 @@ export default [
       route("scenes/:sceneId", "routes/projects.$projectId.scenes.$sceneId.tsx"),
       route("scenes/:sceneId/history", "routes/projects.$projectId.scenes.$sceneId.history.tsx"),
       route("scenes/:sceneId/compare", "routes/projects.$projectId.scenes.$sceneId.compare.tsx"),
+      route("renders", "routes/projects.$projectId.renders._index.tsx"),
     ]),
   ]),
 ] satisfies RouteConfig;

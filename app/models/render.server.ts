@@ -121,7 +121,7 @@ export const PublishMetadataSchema = z.strictObject({
   height: z.number().int().min(1),
   integrator: z.string().min(1).max(32),
   tracerVersion: z.string().min(1).max(64),
-  accumulationHash: z.string().regex(/^[0-9a-f]{8,128}$/, { message: "must be a lowercase hex hash" }),
+  accumulationHash: z.string().regex(/^([a-z0-9]{1,16}:)?[0-9a-f]{8,128}$/, { message: 'must be a hash like "fnv1a64:0123456789abcdef"' }),
   renderMs: z.number().min(0),
   samplesPerSecond: z.number().min(0),
   groups: z.array(z.string().regex(/^[A-Za-z0-9_-]{1,64}$/)).max(16).default([]),

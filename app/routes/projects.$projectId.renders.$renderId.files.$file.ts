@@ -1,0 +1,34 @@
+// GET a stored render file: pfm, hdr, png, thumb, state, or group-<name>. Images are served inline (the
+// library's thumbnails and the compare page use them); ?download=1 asks the browser to save the file.
+import { data } from "react-router";
+import { getRender } from "~/models/render.server";
+import { downloadName, readRenderFile, RENDER_FILE_TYPES, type RenderFileKind } from "~/services/render-files.server";
+import { requireInProject } from "~/services/project-access.server";
+import type { Route } from "./+types/projects.$projectId.renders.$renderId.files.$file";
+
+export function parseRenderFile(file: string): RenderFileKind | { group: string } | null {
+  if (file in RENDER_FILE_TYPES) return file as RenderFileKind;
+  const m = /^group-([A-Za-z0-9_-]{1,64})$/.exec(file);
+  return m ? { group: m[1]! } : null;
+}
+
+export async function loader({ request, params }: Route.LoaderArgs) {
+  await requireInProject(request, params.projectId, { renderId: params.renderId }, "view");
+  const render = await getRender(params.renderId);
+  const kind = parseRenderFile(params.file);
+  if (!render || !kind) throw data("No such file", { status: 404 });
+  const bytes = await readRenderFile(render.files, kind);
+  if (!bytes) throw data("This render has no such file", { status: 404 });
+  const type = typeof kind === "string" ? RENDER_FILE_TYPES[kind].contentType : RENDER_FILE_TYPES.pfm.contentType;
+  const name = downloadName(`${render.sceneName}-v${render.versionNumber}-${render.id.slice(0, 8)}`, kind);
+  const download = new URL(request.url).searchParams.has("download") || !(kind === "png" || kind === "thumb");
+  return new Response(new Blob([bytes.slice().buffer as ArrayBuffer]), {
+    headers: {
+      "Content-Type": type,
+      "Content-Length": String(bytes.length),
+      "Content-Disposition": `${download ? "attachment" : "inline"}; filename="${name}"`,
+      // Stored render files never change.
+      "Cache-Control": "private, max-age=31536000, immutable",
+    },
+  });
+}

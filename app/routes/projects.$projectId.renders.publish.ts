@@ -1,0 +1,111 @@
+// POST multipart/form-data: keep a render from the browser in the project's library. Fields:
+//   sceneId, meta (JSON, PublishMetadataSchema), pfm (required), png (required), hdr, thumb, state,
+//   group:<name> (one PFM per light group). Answers JSON { ok: true, render } or { ok: false, error, field }.
+// The client side is app/lib/publish-render.client.ts (XMLHttpRequest, so uploads report progress).
+import { decodePfm } from "@tracer/io/pfm";
+import { validateScene } from "@tracer/scene/validate";
+import { thumbnailPng } from "~/lib/render-outputs";
+import { logActivity } from "~/models/activity.server";
+import { PublishMetadataSchema, publishRender } from "~/models/render.server";
+import { getScene, getVersion } from "~/models/scene.server";
+import { requireAccess } from "~/services/permissions.server";
+import type { RenderFileBytes } from "~/services/render-files.server";
+import type { Route } from "./+types/projects.$projectId.renders.publish";
+
+/** Well above a full-size 8192² float image with groups; the store, not the app, is the real ceiling. */
+const MAX_PUBLISH_BYTES = 2 * 1024 * 1024 * 1024;
+
+function fail(status: number, error: string, field?: string) {
+  return Response.json({ ok: false, error, field }, { status });
+}
+
+async function bytesOf(form: FormData, name: string): Promise<Uint8Array | undefined> {
+  const v = form.get(name);
+  if (v === null) return undefined;
+  if (typeof v === "string") return new TextEncoder().encode(v);
+  return new Uint8Array(await v.arrayBuffer());
+}
+
+export async function loader() {
+  return fail(405, "POST a render here (multipart/form-data); see app/lib/publish-render.client.ts");
+}
+
+export async function action({ request, params }: Route.ActionArgs) {
+  if (request.method !== "POST") return fail(405, "only POST");
+  const access = await requireAccess(request, { projectId: params.projectId }, "render");
+  const length = Number(request.headers.get("content-length") ?? "0");
+  if (length > MAX_PUBLISH_BYTES) return fail(413, `the upload is ${length} bytes, more than the ${MAX_PUBLISH_BYTES}-byte limit`);
+
+  let form: FormData;
+  try {
+    form = await request.formData();
+  } catch {
+    return fail(400, "the body must be multipart/form-data");
+  }
+  const sceneId = String(form.get("sceneId") ?? "");
+  const scene = await getScene(sceneId);
+  if (!scene || scene.projectId !== access.projectId) return fail(404, "no such scene in this project", "sceneId");
+
+  let metaJson: unknown;
+  try {
+    metaJson = JSON.parse(String(form.get("meta") ?? ""));
+  } catch {
+    return fail(400, "meta must be a JSON object", "meta");
+  }
+  const parsed = PublishMetadataSchema.safeParse(metaJson);
+  if (!parsed.success) {
+    const i = parsed.error.issues[0]!;
+    return fail(400, `meta.${i.path.join(".")}: ${i.message}`, `meta.${i.path.join(".")}`);
+  }
+  const meta = parsed.data;
+  const version = await getVersion(meta.versionId);
+  if (!version || version.sceneId !== scene.id) return fail(400, "meta.versionId: not a version of this scene", "meta.versionId");
+  const checked = validateScene(version.scene);
+  if (!checked.ok) return fail(400, "the version's scene no longer validates", "meta.versionId");
+  const { image, render: settings, display } = checked.scene;
+  if (meta.width !== image.width || meta.height !== image.height) {
+    return fail(400, `meta.width/height: ${meta.width}×${meta.height} does not match the version's image ${image.width}×${image.height}`, "meta.width");
+  }
+  if (meta.integrator !== settings.integrator) {
+    return fail(400, `meta.integrator: "${meta.integrator}" does not match the version's integrator "${settings.integrator}"`, "meta.integrator");
+  }
+
+  const files: RenderFileBytes = {
+    pfm: await bytesOf(form, "pfm"),
+    png: await bytesOf(form, "png"),
+    hdr: await bytesOf(form, "hdr"),
+    thumb: await bytesOf(form, "thumb"),
+    state: await bytesOf(form, "state"),
+  };
+  if (!files.pfm) return fail(400, "pfm: the linear image is required", "pfm");
+  if (!files.png) return fail(400, "png: the displayed image is required", "png");
+  let beauty;
+  try {
+    beauty = decodePfm(files.pfm);
+  } catch (e) {
+    return fail(400, `pfm: ${e instanceof Error ? e.message : String(e)}`, "pfm");
+  }
+  if (beauty.width !== meta.width || beauty.height !== meta.height) {
+    return fail(400, `pfm: the file is ${beauty.width}×${beauty.height}, meta says ${meta.width}×${meta.height}`, "pfm");
+  }
+  const groups: Record<string, Uint8Array> = {};
+  for (const name of meta.groups) {
+    const g = await bytesOf(form, `group:${name}`);
+    if (!g) return fail(400, `group:${name}: listed in meta.groups but not uploaded`, `group:${name}`);
+    groups[name] = g;
+  }
+  if (Object.keys(groups).length) files.groups = groups;
+  files.thumb ??= thumbnailPng(beauty, display);
+
+  try {
+    const render = await publishRender({ projectId: access.projectId, sceneId: scene.id, meta, files, createdBy: access.actor.user.id });
+    await logActivity(access.projectId, access.actor.user.id, "render.published", { renderId: render.id, sceneId: scene.id, versionId: version.id });
+    return Response.json({
+      ok: true,
+      render: { id: render.id, accumulationHash: render.accumulationHash, url: `/projects/${access.projectId}/renders?render=${render.id}` },
+    });
+  } catch (e) {
+    console.error("publishing a render failed:", e);
+    return fail(502, "the files could not be stored; nothing was published, please try again");
+  }
+}
