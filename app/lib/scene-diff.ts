@@ -79,8 +79,9 @@ export function formatValue(v: unknown, depth = 0): string {
   return String(v);
 }
 
+/** Vectors and colours (never empty; an empty list is a collection with nothing in it). */
 function isNumberArray(v: unknown): v is number[] {
-  return Array.isArray(v) && v.every((x) => typeof x === "number");
+  return Array.isArray(v) && v.length > 0 && v.every((x) => typeof x === "number");
 }
 
 /** Values that read as one quantity: numbers, strings, vectors and colours. */
@@ -144,6 +145,7 @@ function walk(delta: unknown, path: string[], left: unknown, right: unknown, emi
   if (delta === undefined) return;
   if (Array.isArray(delta)) {
     if (delta.length === 1) emit(path, "added", undefined, delta[0]);
+    else if (delta.length === 2 && !isAtomic(delta[0]) && !isAtomic(delta[1])) expandReplaced(path, delta[0], delta[1], emit);
     else if (delta.length === 2) emit(path, "changed", delta[0], delta[1]);
     else if (delta.length === 3 && delta[2] === 0) emit(path, "removed", delta[0], undefined);
     else emit(path, "changed", left, right); // text diff or anything else: report whole values
@@ -164,6 +166,35 @@ function walk(delta: unknown, path: string[], left: unknown, right: unknown, emi
   for (const [key, sub] of Object.entries(delta as Record<string, unknown>)) {
     walk(sub, [...path, key], get(left, key), get(right, key), emit);
   }
+}
+
+/**
+ * A collection replaced wholesale (e.g. every light removed, or an empty list filled) still reads per
+ * member: list items by id (else position), object members by key.
+ */
+function expandReplaced(path: string[], before: unknown, after: unknown, emit: Collector): void {
+  if (Array.isArray(before) && Array.isArray(after)) {
+    const key = (x: unknown, i: number) => idOf(x, i);
+    const beforeKeys = new Map(before.map((x, i) => [key(x, i), x]));
+    const afterKeys = new Map(after.map((x, i) => [key(x, i), x]));
+    for (const [k, x] of beforeKeys) {
+      if (!afterKeys.has(k)) emit([...path, k], "removed", x, undefined);
+      else walk(differ.diff(x, afterKeys.get(k)), [...path, k], x, afterKeys.get(k), emit);
+    }
+    for (const [k, x] of afterKeys) if (!beforeKeys.has(k)) emit([...path, k], "added", undefined, x);
+    return;
+  }
+  if (before && after && typeof before === "object" && typeof after === "object" && !Array.isArray(before) && !Array.isArray(after)) {
+    const b = before as Record<string, unknown>;
+    const a = after as Record<string, unknown>;
+    for (const k of new Set([...Object.keys(b), ...Object.keys(a)])) {
+      if (!(k in a)) emit([...path, k], "removed", b[k], undefined);
+      else if (!(k in b)) emit([...path, k], "added", undefined, a[k]);
+      else walk(differ.diff(b[k], a[k]), [...path, k], b[k], a[k], emit);
+    }
+    return;
+  }
+  emit(path, "changed", before, after);
 }
 
 function idOf(item: unknown, fallback: number): string {

@@ -126,3 +126,12 @@ describe.skipIf(sceneFiles.length === 0)("diffScenes on the example scenes", () 
     }
   });
 });
+
+describe("diffScenes when a whole collection is replaced", () => {
+  it("names each light removed when the list is emptied, and each added when filled", () => {
+    const a = kettleScene();
+    const b = { ...clone(a), lights: [] };
+    expect(sceneDiffLines(diffScenes(a, b))).toEqual(['light "key": removed (was area rect, radiance [5, 5, 5])']);
+    expect(sceneDiffLines(diffScenes(b, a))).toEqual(['light "key": added: area rect, radiance [5, 5, 5]']);
+  });
+});
