@@ -7,16 +7,23 @@
  * Graphics Techniques 9(3), 2020. It maps four 32-bit inputs to four well-mixed 32-bit outputs; we feed it
  * (pixel, pass, dimension block, seed) and use the four outputs as four consecutive dimensions.
  *
- * Pixel jitter uses correlated multi-jittered sampling (Kensler, "Correlated Multi-Jittered Sampling",
- * Pixar Technical Memo 13-01, 2013): each pass of a pixel lands in its own stratum of the pixel, with a
- * per-pixel random permutation, so samples spread evenly over passes.
+ * Pixel jitter uses multi-jittered sampling (Chiu, Shirley & Wang, "Multi-Jittered Sampling", Graphics
+ * Gems IV, 1994): each pass of a pixel lands in its own cell of an m×k grid and in its own 1/n strip along
+ * x and along y. The random permutations come from the hash-based `permute` of Kensler ("Correlated
+ * Multi-Jittered Sampling", Pixar Technical Memo 13-01, 2013), so any single pass is computed without the
+ * others. (Kensler's *correlated* variant shares one permutation across rows; it converges more slowly on
+ * smooth integrands, so every row and column here gets its own.)
+ *
+ * pcg4d mixes low input bits thoroughly but high bits less so, so the streams reserved for purposes other
+ * than path sampling are separated through the seed lane with salts whose low bits differ.
  */
 
 const TWO_NEG_32 = 2.3283064365386963e-10; // 2^-32: maps a uint32 onto [0, 1) (largest value 1 - 2^-32 < 1)
 
-/** Dimension blocks reserved for purposes other than path sampling (far above any path dimension). */
-export const BLOCK_PIXEL_PATTERN = 0xfffffff0;
-export const BLOCK_QUANTISE = 0xffffff00; // + k, k < 0xf0
+/** Seed salts of the reserved streams (arbitrary odd constants with well-mixed low bits). */
+export const SALT_PIXEL_PATTERN = 0x85ebca6b;
+export const SALT_QUANTISE = 0xc2b2ae35;
+export const SALT_METER = 0x27d4eb2f;
 
 /** pcg4d over (a, b, c, d); writes four uint32 outputs to out[0..3]. */
 export function pcg4d(a: number, b: number, c: number, d: number, out: Uint32Array): void {
@@ -77,10 +84,9 @@ export class SampleStream {
     return this.words[d & 3] * TWO_NEG_32;
   }
 
-  /** Four raw uint32 words of a reserved block (e.g. quantisation dither); does not move the stream. */
-  reserved(block: number, out: Uint32Array): void {
-    pcg4d(this.pixel, this.pass, block >>> 0, this.seed, out);
-    this.block = -1; // out may alias nothing, but keep the cache honest if a caller passes `words`
+  /** Four raw uint32 words of the reserved stream `salt` for this (pixel, pass); does not move the stream. */
+  reserved(salt: number, out: Uint32Array): void {
+    pcg4d(this.pixel, this.pass, 0, (this.seed ^ salt) >>> 0, out);
   }
 }
 
@@ -150,24 +156,24 @@ export function cmjGrid(n: number): { m: number; k: number } {
 }
 
 /**
- * Sample s (0 ≤ s < n) of the 2-D correlated multi-jittered pattern p over an m×k grid (m·k ≥ n). The sample
- * index is first permuted over all m·k strata, so with n < m·k each sample is still uniform over the square
- * (no bias) while samples of one pattern stay in distinct strata. Writes x, y in [0, 1) to out[0], out[1].
+ * Sample s (0 ≤ s < n) of the 2-D multi-jittered pattern p over an m×k grid (m·k ≥ n). The sample index is
+ * first permuted over all m·k cells, so with n < m·k each sample is still uniform over the square (no bias)
+ * while the samples of one pattern stay in distinct cells. Writes x, y in [0, 1) to out[0], out[1].
+ * The multipliers deriving sub-pattern ids are arbitrary odd constants (any keeps `permute` bijective).
  */
-// The multipliers that derive sub-pattern ids from p are arbitrary odd constants (any odd value keeps the
-// permutations bijective).
 export function cmj(s: number, m: number, k: number, p: number, out: Float64Array): void {
-  const total = m * k;
-  s = permute(s, total, Math.imul(p, 0x51633e2d) >>> 0);
-  const sx = permute(s % m, m, Math.imul(p, 0x68bc21eb) >>> 0);
-  const sy = permute(Math.floor(s / m), k, Math.imul(p, 0x02e5be93) >>> 0);
+  s = permute(s, m * k, Math.imul(p, 0x51633e2d) >>> 0);
+  const col = s % m;
+  const row = (s - col) / m;
+  // the sub-column of cell (col, row) is a permutation over the rows of that column, and the sub-row a
+  // permutation over the columns of that row: every x strip and every y strip of width 1/(m·k) holds one sample
+  const subRow = permute(col, m, (Math.imul(p, 0x68bc21eb) ^ Math.imul(row + 1, 0x9e3779b9)) >>> 0);
+  const subCol = permute(row, k, (Math.imul(p, 0x02e5be93) ^ Math.imul(col + 1, 0x7feb352d)) >>> 0);
   const jx = randfloat(s, Math.imul(p, 0x967a889b) >>> 0);
   const jy = randfloat(s, Math.imul(p, 0x368cc8b7) >>> 0);
-  // Column s % m and row s / m pick the cell; the permuted row/column indices pick the canonical
-  // sub-stratum inside it (Kensler's construction), so x and y are each stratified n-fold as well.
-  let x = ((s % m) + (sy + jx) / k) / m;
-  let y = (Math.floor(s / m) + (sx + jy) / m) / k;
-  // Guard the open interval against rounding up to exactly 1.
+  let x = (col + (subCol + jx) / k) / m;
+  let y = (row + (subRow + jy) / m) / k;
+  // guard the open interval against rounding up to exactly 1
   if (x >= 1) x = 0.9999999999999999;
   if (y >= 1) y = 0.9999999999999999;
   out[0] = x;

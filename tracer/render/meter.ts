@@ -5,7 +5,7 @@
  * for a white Lambertian surface Lo = E/π, so E = π·Lo. The normal faces the camera.
  */
 import type { CompiledScene } from "../compile/types";
-import { SampleStream } from "../math/rng";
+import { SALT_METER, SampleStream } from "../math/rng";
 import { generateRay } from "../camera";
 import { PathScratch, radiance } from "../integrators/path";
 import { traceRay, surfaceAt } from "../geometry/intersect";
@@ -19,9 +19,6 @@ export type IrradianceReading = {
   /** standard error of each irradiance channel */
   stdError: [number, number, number];
 };
-
-/** Pixel indices used for the meter's random numbers sit above any image (images are ≤ 2^26 pixels). */
-const METER_PIXEL_BASE = 0x80000000;
 
 export function measureIrradiance(compiled: CompiledScene, px: number, py: number, samples: number, seed: number): IrradianceReading {
   const W = compiled.width;
@@ -45,12 +42,12 @@ export function measureIrradiance(compiled: CompiledScene, px: number, py: numbe
   const normal: [number, number, number] = [h.ngx * flip, h.ngy * flip, h.ngz * flip];
 
   const rng = new SampleStream();
-  const pixel = (METER_PIXEL_BASE + Math.floor(py) * W + Math.floor(px)) >>> 0;
+  const pixel = Math.floor(py) * W + Math.floor(px);
   const sum = [0, 0, 0];
   const sum2 = [0, 0, 0];
   const G = compiled.groupNames.length;
   for (let i = 0; i < samples; i++) {
-    rng.start(seed >>> 0, pixel, i);
+    rng.start((seed ^ SALT_METER) >>> 0, pixel, i);
     const r = sc.ray;
     r.ox = ox;
     r.oy = oy;

@@ -4,7 +4,7 @@
  * in any order, and their integer sums added in any order (film/accumulate.ts).
  */
 import type { CompiledScene } from "../compile/types";
-import { SampleStream, pcg4d, cmj, cmjGrid, BLOCK_PIXEL_PATTERN, BLOCK_QUANTISE } from "../math/rng";
+import { SampleStream, pcg4d, cmj, cmjGrid, SALT_PIXEL_PATTERN, SALT_QUANTISE } from "../math/rng";
 import { generateRay } from "../camera";
 import { PathScratch, radiance } from "../integrators/path";
 import { quantiseInto, QUANT_MAX_RADIANCE, type RenderUnit, type UnitResult } from "../film/accumulate";
@@ -45,14 +45,14 @@ export function checkUnit(compiled: CompiledScene, u: RenderUnit): void {
 }
 
 /**
- * Film position of pass `pass` in pixel `pixel`: correlated multi-jittered over the scene's spp passes (each
+ * Film position of pass `pass` in pixel `pixel`: multi-jittered over the scene's spp passes (each
  * pass its own stratum; passes beyond spp start a fresh pattern), written to out[0..1] in [0,1)².
  */
 export function pixelJitter(compiled: CompiledScene, pixel: number, pass: number, words: Uint32Array, out: Float64Array): void {
   const n = compiled.spp;
   const round = Math.floor(pass / n);
   const s = pass - round * n;
-  pcg4d(pixel >>> 0, round >>> 0, BLOCK_PIXEL_PATTERN, compiled.seed, words);
+  pcg4d(pixel >>> 0, round >>> 0, 0, (compiled.seed ^ SALT_PIXEL_PATTERN) >>> 0, words);
   const { m, k } = cmjGrid(n);
   cmj(s, m, k, words[0], out);
 }
@@ -82,7 +82,7 @@ export function renderUnit(compiled: CompiledScene, unit: RenderUnit, scratch?: 
     for (let y = y0; y < y1; y++) {
       for (let x = x0; x < x1; x++) {
         const pixel = y * W + x;
-        pcg4d(pixel >>> 0, round >>> 0, BLOCK_PIXEL_PATTERN, compiled.seed, words);
+        pcg4d(pixel >>> 0, round >>> 0, 0, (compiled.seed ^ SALT_PIXEL_PATTERN) >>> 0, words);
         cmj(s, m, k, words[0], jitter);
         rng.start(compiled.seed, pixel, pass);
         const u1 = rng.next();
@@ -91,7 +91,7 @@ export function renderUnit(compiled: CompiledScene, unit: RenderUnit, scratch?: 
         generateRay(cam, W, H, x + jitter[0], y + jitter[1], u1, u2, ut, sc.lens, ray);
         radiance(compiled, sc.path, rng, false);
         clampSample(groups, G, limit);
-        rng.reserved(BLOCK_QUANTISE, words);
+        rng.reserved(SALT_QUANTISE, words);
         const t = (y - y0) * tw + (x - x0);
         quantiseInto(groups, G, words, sums, t * G * 3, sq, t * 2);
       }

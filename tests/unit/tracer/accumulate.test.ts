@@ -16,7 +16,7 @@ import {
   resolveBeauty,
   serializeAccumulation,
 } from "../../../tracer/film/accumulate";
-import { SampleStream } from "../../../tracer/math/rng";
+import { SALT_QUANTISE, SampleStream } from "../../../tracer/math/rng";
 
 const scene = () =>
   compiled({
@@ -120,7 +120,7 @@ describe("exact, order-independent accumulation", () => {
     const n = 200000;
     for (let i = 0; i < n; i++) {
       rng.start(5, 0, i);
-      rng.reserved(0xffffff00, words);
+      rng.reserved(SALT_QUANTISE, words);
       quantiseInto(rgb, 1, words, sums, 0, sq, 0);
     }
     const mean = sums[0] / n / QUANT_SCALE;
