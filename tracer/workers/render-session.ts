@@ -58,7 +58,7 @@ export type RenderProgressiveOptions = {
   passes?: number;
   /** Called after every committed round, and once more at the end. */
   onProgress?: (event: ProgressEvent, snapshot: Accumulation) => void;
-  /** Called for every unit result as it arrives (e.g. to refresh a preview tile). */
+  /** Called for every unit result after it is accounted (e.g. to refresh a preview tile from live()). */
   onUnit?: (result: UnitResult) => void;
   /** Order of tiles inside a round (default row-major); a permutation of tile indices. */
   tileOrder?: (tileCount: number) => number[];
@@ -167,7 +167,6 @@ export function renderProgressive(compiled: CompiledScene, options: RenderProgre
 
   const onResult = (r: UnitResult): void => {
     samples += (r.unit.x1 - r.unit.x0) * (r.unit.y1 - r.unit.y0) * r.samples;
-    options.onUnit?.(r);
     const round = Math.floor((r.unit.passStart - startPass) / ppu);
     let list = pending.get(round);
     if (!list) pending.set(round, (list = []));
@@ -182,6 +181,7 @@ export function renderProgressive(compiled: CompiledScene, options: RenderProgre
       nextRoundToCommit++;
       options.onProgress?.(event(), committed);
     }
+    options.onUnit?.(r);
   };
 
   const wakeAll = (): void => {
