@@ -1,0 +1,86 @@
+// The render pool's job queue: pg-boss on the application's own PostgreSQL (schema "pgboss"), so any
+// machine that can reach the database and the object store can join the pool. No home-made queue.
+//
+// Jobs: one "render-chunk" job per chunk of sample passes, and one "render-merge" job per render, sent by
+// whichever worker finishes the last chunk. A worker killed mid-chunk leaves its job "active"; once the
+// job's expireInSeconds has passed, pg-boss's supervisor fails it and it is retried by any other worker.
+// Rendering is deterministic, so a chunk rendered twice gives the same bytes and retries are harmless.
+import PgBoss from "pg-boss";
+import { z } from "zod";
+
+export const CHUNK_QUEUE = "render-chunk";
+export const MERGE_QUEUE = "render-merge";
+
+export const ChunkJobSchema = z.object({ renderId: z.uuid(), index: z.number().int().min(0) });
+export const MergeJobSchema = z.object({ renderId: z.uuid() });
+export type ChunkJob = z.infer<typeof ChunkJobSchema>;
+export type MergeJob = z.infer<typeof MergeJobSchema>;
+
+const QueueEnvSchema = z.object({
+  // Longest a chunk may stay claimed before another worker takes it over; must exceed one chunk's render time.
+  RENDER_CHUNK_EXPIRE_SECONDS: z.coerce.number().int().min(1).max(82_800).default(900),
+  RENDER_CHUNK_RETRY_LIMIT: z.coerce.number().int().min(0).max(100).default(5),
+});
+
+export function queueSettings(source: Record<string, string | undefined> = process.env) {
+  return QueueEnvSchema.parse({
+    RENDER_CHUNK_EXPIRE_SECONDS: source.RENDER_CHUNK_EXPIRE_SECONDS || undefined,
+    RENDER_CHUNK_RETRY_LIMIT: source.RENDER_CHUNK_RETRY_LIMIT || undefined,
+  });
+}
+
+export type BossOptions = {
+  /** Run pg-boss maintenance (expiring stuck jobs) from this process; workers do, the web server need not. */
+  supervise?: boolean;
+  maintenanceIntervalSeconds?: number;
+  max?: number;
+};
+
+export async function startBoss(databaseUrl: string, opts: BossOptions = {}): Promise<PgBoss> {
+  const boss = new PgBoss({
+    connectionString: databaseUrl,
+    schema: "pgboss",
+    supervise: opts.supervise ?? false,
+    schedule: false,
+    max: opts.max ?? 4,
+    ...(opts.maintenanceIntervalSeconds ? { maintenanceIntervalSeconds: opts.maintenanceIntervalSeconds } : {}),
+  });
+  boss.on("error", (err: Error) => console.error("pg-boss:", err.message));
+  await boss.start();
+  await boss.createQueue(CHUNK_QUEUE, { name: CHUNK_QUEUE, policy: "standard" });
+  await boss.createQueue(MERGE_QUEUE, { name: MERGE_QUEUE, policy: "standard" });
+  return boss;
+}
+
+export async function enqueueChunks(boss: PgBoss, renderId: string, indices: readonly number[]): Promise<void> {
+  const { RENDER_CHUNK_EXPIRE_SECONDS, RENDER_CHUNK_RETRY_LIMIT } = queueSettings();
+  await boss.insert(
+    indices.map((index) => ({
+      name: CHUNK_QUEUE,
+      data: { renderId, index } satisfies ChunkJob,
+      retryLimit: RENDER_CHUNK_RETRY_LIMIT,
+      retryDelay: 1,
+      expireInSeconds: RENDER_CHUNK_EXPIRE_SECONDS,
+    })),
+  );
+}
+
+export async function enqueueMerge(boss: PgBoss, renderId: string): Promise<void> {
+  const { RENDER_CHUNK_EXPIRE_SECONDS, RENDER_CHUNK_RETRY_LIMIT } = queueSettings();
+  await boss.send(MERGE_QUEUE, { renderId } satisfies MergeJob, {
+    retryLimit: RENDER_CHUNK_RETRY_LIMIT,
+    retryDelay: 1,
+    expireInSeconds: RENDER_CHUNK_EXPIRE_SECONDS,
+  });
+}
+
+// The web server's own instance, started on first use (it only sends jobs).
+const globalForQueue = globalThis as unknown as { __tracewellBoss?: Promise<PgBoss> };
+
+export function serverQueue(databaseUrl: string): Promise<PgBoss> {
+  globalForQueue.__tracewellBoss ??= startBoss(databaseUrl, { supervise: false, max: 2 }).catch((err: unknown) => {
+    globalForQueue.__tracewellBoss = undefined;
+    throw err;
+  });
+  return globalForQueue.__tracewellBoss;
+}
