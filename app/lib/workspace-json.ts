@@ -140,3 +140,24 @@ export function positionOfOffset(text: string, offset: number): { line: number; 
   }
   return { line, column: offset - lineStart + 1 };
 }
+
+/** The validator's path syntax for a path: ["lights", 2, "shape"] → `lights[2].shape`. */
+export function formatIssuePath(path: readonly PathSegment[]): string {
+  let out = "";
+  for (const seg of path) {
+    if (typeof seg === "number") out += `[${seg}]`;
+    else if (/^[A-Za-z0-9_-]+$/.test(seg)) out += out === "" ? seg : `.${seg}`;
+    else out += `[${JSON.stringify(seg)}]`;
+  }
+  return out;
+}
+
+/** Read a value from already-parsed JSON by path. */
+export function getIn(value: unknown, path: readonly PathSegment[]): unknown {
+  let cur: unknown = value;
+  for (const seg of path) {
+    if (cur === null || typeof cur !== "object") return undefined;
+    cur = (cur as Record<string | number, unknown>)[seg];
+  }
+  return cur;
+}

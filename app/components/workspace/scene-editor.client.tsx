@@ -1,0 +1,171 @@
+/**
+ * The scene's JSON in a locally bundled Monaco editor, bound to the scene format's JSON Schema for
+ * completion and hover help. Validation markers come from the tracer's own validator (it also checks
+ * references between collections that a JSON Schema cannot), placed on the member each issue names.
+ * Undo/redo keys go to the workspace store so the editor and the forms share one history.
+ */
+import Editor, { loader, type OnMount } from "@monaco-editor/react";
+import * as monaco from "monaco-editor/editor";
+import "monaco-editor/features/register.all";
+import { jsonDefaults } from "monaco-editor/languages/features/json/register";
+import EditorWorker from "monaco-editor/editor/editor.worker?worker";
+import JsonWorker from "monaco-editor/language/json/json.worker?worker";
+import { useEffect, useRef, useState } from "react";
+import { useStore } from "zustand";
+import { z } from "zod";
+import { SceneSchema } from "@tracer/scene/schema";
+import { parseIssuePath, rangeOfPath } from "~/lib/workspace-json";
+import type { WorkspaceStore } from "~/stores/workspace";
+
+declare global {
+  interface Window {
+    MonacoEnvironment?: { getWorker: (id: string, label: string) => Worker };
+  }
+}
+
+const SCHEMA_URI = "inmemory://tracewell/scene-format-1.schema.json";
+const MODEL_URI = "inmemory://tracewell/scene.json";
+const MARKER_OWNER = "tracewell-scene";
+
+let configured = false;
+function configureMonaco(): void {
+  if (configured) return;
+  configured = true;
+  self.MonacoEnvironment = { getWorker: (_id: string, label: string) => (label === "json" ? new JsonWorker() : new EditorWorker()) };
+  loader.config({ monaco }); // use this bundle, never a CDN copy
+  jsonDefaults.setDiagnosticsOptions({
+    validate: true,
+    // Our validator reports schema problems with clearer, path-named messages; Monaco keeps syntax errors.
+    schemaValidation: "ignore",
+    enableSchemaRequest: false,
+    allowComments: false,
+    trailingCommas: "error",
+    schemas: [{ uri: SCHEMA_URI, fileMatch: [MODEL_URI], schema: z.toJSONSchema(SceneSchema, { io: "input", unrepresentable: "any" }) }],
+  });
+}
+
+export type EditorHandle = { revealPath: (path: string, line?: number, column?: number) => void; focus: () => void };
+
+/** Smallest single replacement turning `a` into `b` (keeps the cursor and folding when a form edits one value). */
+function minimalEdit(a: string, b: string): { start: number; end: number; text: string } {
+  let start = 0;
+  const max = Math.min(a.length, b.length);
+  while (start < max && a.charCodeAt(start) === b.charCodeAt(start)) start++;
+  let ea = a.length;
+  let eb = b.length;
+  while (ea > start && eb > start && a.charCodeAt(ea - 1) === b.charCodeAt(eb - 1)) {
+    ea--;
+    eb--;
+  }
+  return { start, end: ea, text: b.slice(start, eb) };
+}
+
+export default function SceneEditor({
+  store,
+  onReady,
+  height = "100%",
+}: {
+  store: WorkspaceStore;
+  onReady?: (handle: EditorHandle) => void;
+  height?: string;
+}) {
+  configureMonaco();
+  const editorRef = useRef<monaco.editor.IStandaloneCodeEditor | null>(null);
+  const applyingRef = useRef(false);
+  const [ready, setReady] = useState(false);
+  const canEdit = useStore(store, (s) => s.canEdit);
+  const issues = useStore(store, (s) => s.issues);
+  const text = useStore(store, (s) => s.text);
+
+  // Outside changes (forms, undo, write-back, conflict) flow into the model as one minimal edit.
+  useEffect(() => {
+    const ed = editorRef.current;
+    const model = ed?.getModel();
+    if (!ed || !model) return;
+    const current = model.getValue();
+    if (current === text) return;
+    const e = minimalEdit(current, text);
+    const from = model.getPositionAt(e.start);
+    const to = model.getPositionAt(e.end);
+    applyingRef.current = true;
+    try {
+      ed.executeEdits("workspace", [{ range: new monaco.Range(from.lineNumber, from.column, to.lineNumber, to.column), text: e.text, forceMoveMarkers: true }]);
+    } finally {
+      applyingRef.current = false;
+    }
+  }, [text, ready]);
+
+  // Validation markers at the member each issue names.
+  useEffect(() => {
+    const model = editorRef.current?.getModel();
+    if (!model) return;
+    const value = model.getValue();
+    const markers: monaco.editor.IMarkerData[] = [];
+    for (const issue of issues) {
+      if (issue.path === "" && issue.message.startsWith("invalid JSON")) continue; // Monaco marks syntax itself
+      const range = rangeOfPath(value, parseIssuePath(issue.path));
+      if (range) {
+        const a = model.getPositionAt(range.offset);
+        const b = model.getPositionAt(range.offset + Math.max(1, range.length));
+        markers.push({ severity: monaco.MarkerSeverity.Error, message: `${issue.path || "scene"}: ${issue.message}`, startLineNumber: a.lineNumber, startColumn: a.column, endLineNumber: b.lineNumber, endColumn: b.column, source: "scene check" });
+      } else if (issue.line !== undefined) {
+        markers.push({ severity: monaco.MarkerSeverity.Error, message: `${issue.path || "scene"}: ${issue.message}`, startLineNumber: issue.line, startColumn: issue.column ?? 1, endLineNumber: issue.line, endColumn: (issue.column ?? 1) + 1, source: "scene check" });
+      }
+    }
+    monaco.editor.setModelMarkers(model, MARKER_OWNER, markers);
+  }, [issues, text, ready]);
+
+  const onMount: OnMount = (ed) => {
+    editorRef.current = ed;
+    const model = ed.getModel();
+    if (model && model.getValue() !== store.getState().text) model.setValue(store.getState().text);
+    // One history for editor and forms: the store's undo, not Monaco's own.
+    ed.addCommand(monaco.KeyMod.CtrlCmd | monaco.KeyCode.KeyZ, () => store.getState().undo());
+    ed.addCommand(monaco.KeyMod.CtrlCmd | monaco.KeyMod.Shift | monaco.KeyCode.KeyZ, () => store.getState().redo());
+    ed.addCommand(monaco.KeyMod.CtrlCmd | monaco.KeyCode.KeyY, () => store.getState().redo());
+    setReady(true); // runs the sync and marker effects now that the model exists
+    onReady?.({
+      focus: () => ed.focus(),
+      revealPath: (path, line, column) => {
+        const m = ed.getModel();
+        if (!m) return;
+        const r = rangeOfPath(m.getValue(), parseIssuePath(path));
+        const pos = r ? m.getPositionAt(r.offset) : line !== undefined ? { lineNumber: line, column: column ?? 1 } : null;
+        if (!pos) return;
+        ed.revealPositionInCenter(pos);
+        ed.setPosition(pos);
+        ed.focus();
+      },
+    });
+  };
+
+  return (
+    <div className="h-full min-h-0" data-testid="scene-editor">
+      <Editor
+        height={height}
+        defaultLanguage="json"
+        path={MODEL_URI}
+        defaultValue={store.getState().text}
+        theme="vs-dark"
+        onMount={onMount}
+        onChange={(value) => {
+          if (applyingRef.current || value === undefined) return;
+          if (value === store.getState().text) return;
+          store.getState().edit(value, { source: "editor", label: "edit in the JSON editor", coalesceKey: "editor" });
+        }}
+        options={{
+          readOnly: !canEdit,
+          minimap: { enabled: false },
+          fontSize: 12,
+          lineNumbersMinChars: 3,
+          scrollBeyondLastLine: false,
+          automaticLayout: true,
+          tabSize: 2,
+          wordWrap: "off",
+          ariaLabel: "Scene JSON. Press Ctrl+M to let Tab move focus out of the editor.",
+          fixedOverflowWidgets: true,
+        }}
+      />
+    </div>
+  );
+}

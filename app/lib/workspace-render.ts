@@ -1,0 +1,114 @@
+/**
+ * Main-thread side of the preview: starts the render coordinator worker, restarts it when the scene's
+ * render-relevant content changes (display settings only change how the buffers are shown), and keeps the
+ * latest frame and progress in a small store of its own so progress ticks never re-render the forms.
+ * Import only in the browser.
+ */
+import { proxy, wrap, type Remote } from "comlink";
+import { createStore, type StoreApi } from "zustand/vanilla";
+import type { MeterReading, SessionApi, SessionFrame, SessionStatus } from "./workspace-session.worker";
+
+export type PreviewState = {
+  status: SessionStatus | "idle";
+  runId: number;
+  width: number;
+  height: number;
+  groupNames: string[];
+  groups: Float32Array[] | null;
+  /** Bumped whenever `groups` holds new pixels. */
+  pixelsVersion: number;
+  sppDone: number;
+  sppTarget: number;
+  samplesPerSecond: number;
+  elapsedMs: number;
+  relStdError: number;
+  stopReason: SessionFrame["stopReason"];
+  error: string | null;
+  workers: number;
+};
+
+export type { MeterReading };
+
+export const initialPreview: PreviewState = {
+  status: "idle", runId: 0, width: 0, height: 0, groupNames: [], groups: null, pixelsVersion: 0, sppDone: 0, sppTarget: 0,
+  samplesPerSecond: 0, elapsedMs: 0, relStdError: Infinity, stopReason: null, error: null, workers: 0,
+};
+
+/** The part of a scene that changes the rendered radiance (everything but the display block). */
+export function renderKey(scene: unknown): string {
+  if (!scene || typeof scene !== "object") return "";
+  const { display: _display, ...rest } = scene as Record<string, unknown>;
+  return JSON.stringify(rest);
+}
+
+/** Time left to reach the target spp at the current rate; null before there is a rate. */
+export function etaMs(p: Pick<PreviewState, "sppDone" | "sppTarget" | "elapsedMs">): number | null {
+  if (p.sppDone <= 0 || p.elapsedMs <= 0) return null;
+  return ((p.sppTarget - p.sppDone) * p.elapsedMs) / p.sppDone;
+}
+
+export class PreviewRenderer {
+  readonly store: StoreApi<PreviewState> = createStore<PreviewState>()(() => ({ ...initialPreview }));
+  private worker: Worker;
+  private api: Remote<SessionApi>;
+  private latestRun = 0;
+
+  constructor(private assetBase: string) {
+    this.worker = new Worker(new URL("./workspace-session.worker.ts", import.meta.url), { type: "module", name: "tracewell-preview" });
+    this.api = wrap<SessionApi>(this.worker);
+  }
+
+  start(scene: unknown, opts: { scale: number; noiseTarget: number | null }): void {
+    this.store.setState({ status: "compiling", error: null, stopReason: null });
+    void this.api
+      .start(scene, { ...opts, assetBase: this.assetBase }, proxy((f: SessionFrame) => this.onFrame(f)))
+      .catch((e: unknown) => this.store.setState({ status: "error", error: e instanceof Error ? e.message : String(e) }));
+  }
+
+  private onFrame(f: SessionFrame): void {
+    if (f.runId < this.latestRun) return; // a late frame of a run that was replaced
+    this.latestRun = f.runId;
+    const s = this.store.getState();
+    this.store.setState({
+      status: f.status,
+      runId: f.runId,
+      width: f.width || s.width,
+      height: f.height || s.height,
+      groupNames: f.groupNames.length ? f.groupNames : s.groupNames,
+      // An error or a fresh compile keeps the last good picture on screen.
+      groups: f.groups ?? s.groups,
+      pixelsVersion: f.groups ? s.pixelsVersion + 1 : s.pixelsVersion,
+      sppDone: f.sppDone,
+      sppTarget: f.sppTarget || s.sppTarget,
+      samplesPerSecond: f.samplesPerSecond,
+      elapsedMs: f.elapsedMs,
+      relStdError: f.relStdError,
+      stopReason: f.stopReason,
+      error: f.error,
+      workers: f.workers,
+    });
+  }
+
+  pause(): void {
+    this.store.setState({ status: "paused" });
+    void this.api.pause();
+  }
+
+  resume(): void {
+    this.store.setState({ status: "rendering" });
+    void this.api.resume();
+  }
+
+  setNoiseTarget(t: number | null): void {
+    void this.api.setNoiseTarget(t);
+  }
+
+  meter(px: number, py: number): Promise<MeterReading | null> {
+    return this.api.meter(px, py);
+  }
+
+  dispose(): void {
+    void this.api.stop();
+    this.worker.terminate();
+  }
+}

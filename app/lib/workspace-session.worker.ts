@@ -1,0 +1,277 @@
+/// <reference lib="webworker" />
+/**
+ * The workspace's render coordinator, itself a Web Worker so the page's main thread never compiles,
+ * traces or accumulates. It compiles the scene, drives the tracer's worker pool (nested module workers:
+ * one per spare core) over tiles and growing pass batches, keeps the exact accumulation, and posts the
+ * mean radiance of each light group a few times a second. It also answers light-meter readings.
+ */
+import { expose, transfer } from "comlink";
+import { compileScene } from "@tracer/compile/compile";
+import type { CompiledScene } from "@tracer/compile/types";
+import { addUnit, createAccumulation, relativeStdError, resolveGroup, type Accumulation, type RenderUnit } from "@tracer/film/accumulate";
+import { measureIrradiance } from "@tracer/render/meter";
+import { uniqueAssetRefs } from "@tracer/scene/assets";
+import { validateScene } from "@tracer/scene/validate";
+import { createBrowserPool } from "@tracer/workers/browser-pool";
+import type { WorkerPool } from "@tracer/workers/pool";
+
+export type SessionStatus = "compiling" | "rendering" | "paused" | "done" | "stopped" | "error";
+
+export type SessionFrame = {
+  runId: number;
+  status: SessionStatus;
+  width: number;
+  height: number;
+  groupNames: string[];
+  /** One RGB float image per group (row 0 = top), present when pixels changed since the last frame. */
+  groups: Float32Array[] | null;
+  sppDone: number;
+  sppTarget: number;
+  samplesPerSecond: number;
+  elapsedMs: number;
+  relStdError: number;
+  stopReason: "target" | "noise" | null;
+  error: string | null;
+  workers: number;
+};
+
+export type StartOptions = {
+  /** 1, 0.5 or 0.25 of the scene's image size. */
+  scale: number;
+  noiseTarget: number | null;
+  /** Where "sha256:…" assets are fetched from: `${assetBase}${sha}` */
+  assetBase: string;
+  frameIntervalMs?: number;
+  tileSize?: number;
+};
+
+export type MeterReading = {
+  hit: boolean;
+  irradiance: [number, number, number];
+  stdError: [number, number, number];
+  position: [number, number, number];
+  normal: [number, number, number];
+  samples: number;
+};
+
+type Run = {
+  id: number;
+  compiled: CompiledScene;
+  acc: Accumulation;
+  tilePasses: Int32Array;
+  tiles: { x0: number; y0: number; x1: number; y1: number }[];
+  target: number;
+  noiseTarget: number | null;
+  paused: boolean;
+  cancelled: boolean;
+  resume: (() => void) | null;
+  started: number;
+  pausedAt: number;
+  pausedTotal: number;
+  samples: number;
+  dirty: boolean;
+  stopReason: SessionFrame["stopReason"];
+};
+
+let pool: WorkerPool | null = null;
+let poolSize = 0;
+let current: Run | null = null;
+let runCounter = 0;
+const assetCache = new Map<string, Uint8Array>();
+
+function ensurePool(size: number): WorkerPool {
+  if (pool && poolSize === size) return pool;
+  void pool?.terminate();
+  pool = createBrowserPool(size);
+  poolSize = size;
+  return pool;
+}
+
+function scaledScene<T extends { image: { width: number; height: number } }>(scene: T, scale: number): T {
+  if (scale === 1) return scene;
+  return { ...scene, image: { width: Math.max(1, Math.round(scene.image.width * scale)), height: Math.max(1, Math.round(scene.image.height * scale)) } };
+}
+
+async function loadAssets(refs: string[], assetBase: string): Promise<Map<string, Uint8Array>> {
+  const out = new Map<string, Uint8Array>();
+  for (const ref of refs) {
+    let bytes = assetCache.get(ref);
+    if (!bytes) {
+      if (!ref.startsWith("sha256:")) throw new Error(`asset "${ref}": the workspace can only use uploaded assets ("sha256:…")`);
+      const res = await fetch(`${assetBase}${ref.slice(7)}`);
+      if (!res.ok) throw new Error(`asset "${ref}" could not be loaded (HTTP ${res.status})`);
+      bytes = new Uint8Array(await res.arrayBuffer());
+      assetCache.set(ref, bytes);
+    }
+    out.set(ref, bytes);
+  }
+  return out;
+}
+
+function sppDone(run: Run): number {
+  let m = Infinity;
+  for (let i = 0; i < run.tilePasses.length; i++) m = Math.min(m, run.tilePasses[i]!);
+  return Number.isFinite(m) ? m : 0;
+}
+
+function elapsed(run: Run): number {
+  const now = performance.now();
+  return now - run.started - run.pausedTotal - (run.paused ? now - run.pausedAt : 0);
+}
+
+/** Passes per unit grow 1, 1, 2, 4, 8, 16 so the first picture comes fast and later ones waste little messaging. */
+function batchSize(done: number): number {
+  if (done < 2) return 1;
+  return Math.min(16, 1 << Math.floor(Math.log2(done)));
+}
+
+const api = {
+  async start(sceneJson: unknown, opts: StartOptions, onFrame: (f: SessionFrame) => void): Promise<void> {
+    const id = ++runCounter;
+    if (current) {
+      current.cancelled = true;
+      current.resume?.();
+    }
+    const workers = Math.max(1, (navigator.hardwareConcurrency || 2) - 1);
+    const base: SessionFrame = {
+      runId: id, status: "compiling", width: 0, height: 0, groupNames: [], groups: null, sppDone: 0, sppTarget: 0,
+      samplesPerSecond: 0, elapsedMs: 0, relStdError: Infinity, stopReason: null, error: null, workers,
+    };
+    const fail = (message: string) => onFrame({ ...base, status: "error", error: message });
+    onFrame(base);
+
+    let compiled: CompiledScene;
+    try {
+      const v = validateScene(sceneJson);
+      if (!v.ok) return fail(v.issues.map((i) => `${i.path}: ${i.message}`).join("\n"));
+      const scene = scaledScene(v.scene, opts.scale);
+      const assets = await loadAssets(uniqueAssetRefs(scene), opts.assetBase);
+      if (id !== runCounter) return;
+      compiled = compileScene(scene, assets);
+    } catch (e) {
+      return fail(e instanceof Error ? e.message : String(e));
+    }
+    if (id !== runCounter) return;
+
+    const p = ensurePool(workers);
+    const tileSize = opts.tileSize ?? 32;
+    const tiles: Run["tiles"] = [];
+    for (let y0 = 0; y0 < compiled.height; y0 += tileSize)
+      for (let x0 = 0; x0 < compiled.width; x0 += tileSize)
+        tiles.push({ x0, y0, x1: Math.min(compiled.width, x0 + tileSize), y1: Math.min(compiled.height, y0 + tileSize) });
+    const run: Run = {
+      id, compiled, tiles, acc: createAccumulation(compiled.width, compiled.height, compiled.groupNames.length),
+      tilePasses: new Int32Array(tiles.length), target: compiled.spp, noiseTarget: opts.noiseTarget, paused: false,
+      cancelled: false, resume: null, started: performance.now(), pausedAt: 0, pausedTotal: 0, samples: 0, dirty: false, stopReason: null,
+    };
+    current = run;
+
+    const frame = (status: SessionStatus, withPixels: boolean): void => {
+      const groups = withPixels ? run.compiled.groupNames.map((_, g) => resolveGroup(run.acc, g).data) : null;
+      const ms = elapsed(run);
+      const f: SessionFrame = {
+        ...base, status, width: compiled.width, height: compiled.height, groupNames: compiled.groupNames, groups,
+        sppDone: sppDone(run), sppTarget: run.target, samplesPerSecond: ms > 0 ? (run.samples / ms) * 1000 : 0, elapsedMs: ms,
+        relStdError: relativeStdError(run.acc), stopReason: run.stopReason,
+      };
+      run.dirty = false;
+      onFrame(groups ? transfer(f, groups.map((g) => g.buffer as ArrayBuffer)) : f);
+    };
+
+    try {
+      await p.loadScene(compiled);
+    } catch (e) {
+      return fail(e instanceof Error ? e.message : String(e));
+    }
+    if (run.cancelled) return;
+
+    // Units are handed out tile by tile; a tile's next batch starts once all tiles reached the same pass.
+    let cursor = 0;
+    let round = 0;
+    let roundEnd = batchSize(0);
+    const source = {
+      next: async (): Promise<RenderUnit | null> => {
+        while (run.paused && !run.cancelled) await new Promise<void>((r) => (run.resume = r));
+        if (run.cancelled || run.stopReason) return null;
+        if (cursor >= tiles.length) {
+          if (roundEnd >= run.target) return null;
+          cursor = 0;
+          round = roundEnd;
+          roundEnd = Math.min(run.target, round + batchSize(round));
+        }
+        const t = tiles[cursor++]!;
+        return { ...t, passStart: round, passEnd: roundEnd };
+      },
+    };
+
+    const interval = opts.frameIntervalMs ?? 300;
+    const timer = setInterval(() => {
+      if (run.cancelled || !run.dirty) return;
+      frame(run.paused ? "paused" : "rendering", true);
+      const noise = run.noiseTarget;
+      if (noise !== null && sppDone(run) >= 4 && relativeStdError(run.acc) <= noise) run.stopReason = "noise";
+    }, interval);
+
+    try {
+      await p.run(source, {
+        onResult: (r) => {
+          if (run.cancelled) return;
+          addUnit(run.acc, r);
+          run.samples += r.samples * (r.unit.x1 - r.unit.x0) * (r.unit.y1 - r.unit.y0);
+          const ti = tiles.findIndex((t) => t.x0 === r.unit.x0 && t.y0 === r.unit.y0);
+          if (ti >= 0) run.tilePasses[ti] = Math.max(run.tilePasses[ti]!, r.unit.passEnd);
+          run.dirty = true;
+        },
+      });
+    } catch (e) {
+      clearInterval(timer);
+      if (!run.cancelled) fail(e instanceof Error ? e.message : String(e));
+      return;
+    }
+    clearInterval(timer);
+    if (run.cancelled) return;
+    if (!run.stopReason) run.stopReason = "target";
+    frame("done", true);
+  },
+
+  pause(): void {
+    const r = current;
+    if (!r || r.paused || r.cancelled) return;
+    r.paused = true;
+    r.pausedAt = performance.now();
+  },
+
+  resume(): void {
+    const r = current;
+    if (!r || !r.paused) return;
+    r.paused = false;
+    r.pausedTotal += performance.now() - r.pausedAt;
+    const go = r.resume;
+    r.resume = null;
+    go?.();
+  },
+
+  stop(): void {
+    if (current) {
+      current.cancelled = true;
+      current.resume?.();
+    }
+    runCounter++;
+  },
+
+  setNoiseTarget(t: number | null): void {
+    if (current) current.noiseTarget = t;
+  },
+
+  /** Irradiance at the surface under pixel (px, py) of the current run's image. */
+  meter(px: number, py: number, samples = 4096): MeterReading | null {
+    const r = current;
+    if (!r) return null;
+    const m = measureIrradiance(r.compiled, Math.floor(px), Math.floor(py), samples, r.compiled.seed ^ 0x5eed);
+    return { ...m, samples };
+  },
+};
+
+export type SessionApi = typeof api;
+
+expose(api);
