@@ -1,0 +1,160 @@
+// The pool's chunk and merge steps, driven in-process against the real database and object store: chunks in
+// any order merge to the same bits as one process rendering every pass, and continuing stored state from N
+// passes to M equals M from scratch. (Bit-identity is the determinism contract of scene-format.md; the
+// hash is the tracer's FNV-1a 64 over the exact integer sums.)
+import { eq } from "drizzle-orm";
+import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { renders } from "~/db/schema";
+import { createPoolRender, getPoolRender, listChunks, planChunks, sceneForRender } from "~/models/render-job.server";
+import { db, dbPool } from "~/services/db.server";
+import { deleteObject, ensureBucket, getObjectBytes, putObject } from "~/services/storage.server";
+import { mergeRender, renderPasses, runChunk, type PoolDeps } from "~/workers/pool.server";
+import { accumulationHash, compileScene, decodePfm, deserializeAccumulation, resolveBeauty, serializeAccumulation, TRACER_VERSION, validateScene } from "@tracer/index";
+import { makeProject, makeScene, makeUser, studioScene } from "./api-fixtures";
+
+const store = { get: getObjectBytes, put: putObject, delete: deleteObject };
+
+function deps(worker: string, done: string[]): PoolDeps {
+  return { db: db(), store, worker, onAllChunksDone: async (id) => void done.push(id) };
+}
+
+function compiledFor(doc: Record<string, unknown>, r: { width: number; height: number; seed: number }) {
+  const checked = validateScene(sceneForRender(doc, r));
+  if (!checked.ok) throw new Error(JSON.stringify(checked.issues));
+  return compileScene(checked.scene, new Map());
+}
+
+let ctx: Awaited<ReturnType<typeof setup>>;
+async function setup() {
+  await ensureBucket();
+  const user = await makeUser("pool-core");
+  const project = await makeProject(user.id);
+  const doc = studioScene({ width: 20, height: 12, spp: 9 });
+  const { scene, version } = await makeScene(project.id, user.id, doc);
+  return { user, project, scene, version, doc };
+}
+
+beforeAll(async () => {
+  ctx = await setup();
+});
+afterAll(async () => {
+  await dbPool().end();
+});
+
+describe("pool chunks and merge", () => {
+  it("merges chunks rendered in shuffled order to the same bits as one process", async () => {
+    const size = { width: 20, height: 12, seed: 17 };
+    const render = await createPoolRender(db(), {
+      projectId: ctx.project.id,
+      sceneId: ctx.scene.id,
+      versionId: ctx.version.id,
+      spp: 9,
+      ...size,
+      integrator: "path",
+      tracerVersion: TRACER_VERSION,
+      title: "",
+      createdBy: ctx.user.id,
+      continuedFromId: null,
+      chunks: planChunks(0, 9, 4), // [0,4) [4,8) [8,9)
+    });
+    const done: string[] = [];
+    expect(await runChunk(deps("w-b", done), render.id, 2)).toBe("done");
+    expect(await runChunk(deps("w-a", done), render.id, 0)).toBe("done");
+    expect(done).toEqual([]);
+    expect((await getPoolRender(db(), render.id))?.sppDone).toBe(5); // chunks [8,9) and [0,4)
+    expect(await runChunk(deps("w-b", done), render.id, 1)).toBe("done");
+    expect(done).toEqual([render.id]);
+    // A retried job whose chunk already finished does nothing.
+    expect(await runChunk(deps("w-c", done), render.id, 1)).toBe("skipped");
+
+    expect(await mergeRender(deps("w-a", done), render.id)).toBe("done");
+    const row = await getPoolRender(db(), render.id);
+    expect(row?.status).toBe("done");
+    expect(row?.sppDone).toBe(9);
+    expect((await listChunks(db(), render.id)).map((c) => c.worker)).toEqual(["w-a", "w-b", "w-b"]);
+
+    const single = await renderPasses(compiledFor(ctx.doc, size), 0, 9);
+    expect(single).not.toBeNull();
+    expect(row?.accumulationHash).toBe(accumulationHash(single!));
+    // The stored PFM is the mean radiance of the single-process accumulation, value for value.
+    const pfm = decodePfm(await getObjectBytes(row!.files.pfm!));
+    expect(Buffer.from(pfm.data.buffer).equals(Buffer.from(resolveBeauty(single!).data.buffer))).toBe(true);
+    expect(Object.keys(row!.files.groups ?? {}).sort()).toEqual(["environment", "fill", "key"].sort());
+  });
+
+  it("continues stored state from 4 passes to 9 and matches 9 from scratch", async () => {
+    const size = { width: 20, height: 12, seed: 17 };
+    const compiled = compiledFor(ctx.doc, size);
+    const preview = await renderPasses(compiled, 0, 4);
+    const stateKey = `tests/pool-core/${ctx.scene.id}/state.bin`;
+    await putObject(stateKey, serializeAccumulation(preview!));
+    const [browser] = await db()
+      .insert(renders)
+      .values({
+        projectId: ctx.project.id,
+        sceneId: ctx.scene.id,
+        versionId: ctx.version.id,
+        source: "browser",
+        status: "done",
+        spp: 4,
+        sppDone: 4,
+        ...size,
+        integrator: "path",
+        tracerVersion: TRACER_VERSION,
+        accumulationHash: accumulationHash(preview!),
+        files: { state: stateKey },
+        createdBy: ctx.user.id,
+        finishedAt: new Date(),
+      })
+      .returning();
+    const render = await createPoolRender(db(), {
+      projectId: ctx.project.id,
+      sceneId: ctx.scene.id,
+      versionId: ctx.version.id,
+      spp: 9,
+      ...size,
+      integrator: "path",
+      tracerVersion: TRACER_VERSION,
+      title: "",
+      createdBy: ctx.user.id,
+      continuedFromId: browser!.id,
+      chunks: planChunks(4, 9, 3), // [4,7) [7,9)
+    });
+    expect(render.sppDone).toBe(4);
+    const done: string[] = [];
+    await runChunk(deps("w-a", done), render.id, 1);
+    await runChunk(deps("w-a", done), render.id, 0);
+    expect(await mergeRender(deps("w-a", done), render.id)).toBe("done");
+    const row = await getPoolRender(db(), render.id);
+    const scratch = await renderPasses(compiled, 0, 9);
+    expect(row?.accumulationHash).toBe(accumulationHash(scratch!));
+    const merged = deserializeAccumulation(await getObjectBytes(row!.files.state!));
+    expect(merged.counts.every((c) => c === 9)).toBe(true);
+    await db().delete(renders).where(eq(renders.id, browser!.id));
+  });
+
+  it("stops a cancelled render's chunk and never merges it", async () => {
+    const render = await createPoolRender(db(), {
+      projectId: ctx.project.id,
+      sceneId: ctx.scene.id,
+      versionId: ctx.version.id,
+      spp: 4,
+      width: 20,
+      height: 12,
+      seed: 17,
+      integrator: "path",
+      tracerVersion: TRACER_VERSION,
+      title: "",
+      createdBy: ctx.user.id,
+      continuedFromId: null,
+      chunks: planChunks(0, 4, 2),
+    });
+    const { cancelPoolRender } = await import("~/models/render-job.server");
+    expect(await cancelPoolRender(db(), render.id)).toBe(true);
+    const done: string[] = [];
+    expect(await runChunk(deps("w-a", done), render.id, 0)).toBe("skipped");
+    expect(await mergeRender(deps("w-a", done), render.id)).toBe("skipped");
+    expect((await listChunks(db(), render.id)).every((c) => c.status === "cancelled")).toBe(true);
+    expect(await cancelPoolRender(db(), render.id)).toBe(false);
+  });
+});
