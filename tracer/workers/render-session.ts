@@ -197,12 +197,13 @@ export function renderProgressive(compiled: CompiledScene, options: RenderProgre
         await pool.ensureScene(compiled);
         await pool.run(source, { kernel: "render", onResult });
       }
-      if (status === "running" || status === "paused") {
+      const cancelled = status === "cancelled";
+      if (!cancelled) {
         activeMs = elapsed();
         status = "finished";
       }
       options.onProgress?.(event(), committed);
-      return { accumulation: committed, passesDone, cancelled: status === "cancelled", samplesPerSecond: rate(), elapsedMs: elapsed() };
+      return { accumulation: committed, passesDone, cancelled, samplesPerSecond: rate(), elapsedMs: elapsed() };
     } catch (e) {
       activeMs = elapsed();
       status = "failed";
