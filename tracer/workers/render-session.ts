@@ -197,7 +197,7 @@ export function renderProgressive(compiled: CompiledScene, options: RenderProgre
         await pool.ensureScene(compiled);
         await pool.run(source, { kernel: "render", onResult });
       }
-      const cancelled = status === "cancelled";
+      const cancelled = (status as SessionStatus) === "cancelled";
       if (!cancelled) {
         activeMs = elapsed();
         status = "finished";
