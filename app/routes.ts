@@ -30,6 +30,9 @@ export default [
   // Resource routes of the render library (A3).
   route("projects/:projectId/renders/publish", "routes/projects.$projectId.renders.publish.ts"),
   route("projects/:projectId/renders/:renderId/files/:file", "routes/projects.$projectId.renders.$renderId.files.$file.ts"),
+  route("projects/:projectId/assets/upload", "routes/projects.$projectId.assets.upload.ts"),
+  route("projects/:projectId/assets/:sha", "routes/projects.$projectId.assets.$sha.ts"),
+  route("projects/:projectId/assets.json", "routes/projects.$projectId.assets[.]json.ts"),
 
   layout("routes/app-shell.tsx", [
     route("projects", "routes/projects._index.tsx"),
@@ -43,6 +46,8 @@ export default [
       route("scenes/:sceneId/history", "routes/projects.$projectId.scenes.$sceneId.history.tsx"),
       route("scenes/:sceneId/compare", "routes/projects.$projectId.scenes.$sceneId.compare.tsx"),
       route("renders", "routes/projects.$projectId.renders._index.tsx"),
+      route("renders/compare", "routes/projects.$projectId.renders.compare.tsx"),
+      route("assets", "routes/projects.$projectId.assets._index.tsx"),
     ]),
   ]),
 ] satisfies RouteConfig;

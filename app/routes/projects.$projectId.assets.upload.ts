@@ -1,0 +1,33 @@
+// POST the raw bytes of one OBJ or .hdr file (?name=kettle.obj). Answers JSON { ok, asset } or
+// { ok: false, error } whose message names the line (OBJ) or byte (HDR) at fault. Used by the Assets tab's
+// drop zone through XMLHttpRequest so the upload shows progress.
+import { logActivity } from "~/models/activity.server";
+import { AssetError, assetRef, uploadAsset } from "~/models/asset.server";
+import { MAX_ASSET_BYTES } from "~/lib/asset-inspect";
+import { requireAccess } from "~/services/permissions.server";
+import type { Route } from "./+types/projects.$projectId.assets.upload";
+
+function fail(status: number, error: string) {
+  return Response.json({ ok: false, error }, { status });
+}
+
+export async function action({ request, params }: Route.ActionArgs) {
+  const access = await requireAccess(request, { projectId: params.projectId }, "upload");
+  const name = (new URL(request.url).searchParams.get("name") ?? "").trim();
+  if (!name) return fail(400, "name: the file name is required (?name=…)");
+  const declared = Number(request.headers.get("content-length") ?? "0");
+  if (declared > MAX_ASSET_BYTES) return fail(413, `${name}: ${declared} bytes is more than the ${MAX_ASSET_BYTES}-byte limit`);
+  const bytes = new Uint8Array(await request.arrayBuffer());
+  try {
+    const { asset, created } = await uploadAsset({ projectId: access.projectId, name, bytes, uploadedBy: access.actor.user.id });
+    if (created) await logActivity(access.projectId, access.actor.user.id, "asset.uploaded", { sha256: asset.sha256, name: asset.name });
+    return Response.json({ ok: true, created, asset: { sha256: asset.sha256, ref: assetRef(asset.sha256), name: asset.name, kind: asset.kind, bytes: asset.bytes, facts: asset.facts } });
+  } catch (e) {
+    if (e instanceof AssetError) return fail(e.status, e.message);
+    throw e;
+  }
+}
+
+export async function loader() {
+  return fail(405, "POST the file's bytes here");
+}
