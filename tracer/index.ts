@@ -17,3 +17,10 @@ export { compileScene, transferables, CompileError, type LoadedAssets } from "./
 export { renderUnit, createRenderScratch, pixelJitter, type RenderScratch } from "./render/unit";
 export * from "./film/accumulate";
 export * from "./render/meter";
+export * from "./bvh/layout";
+export { buildBvh, type BuildBvhOptions } from "./bvh/build";
+export { closestHit, anyHit, createTraversalScratch, type TriangleBvh, type TraversalScratch } from "./bvh/traverse";
+export { buildTriangleBvh, intersectRays, triangleBvhByteLength } from "./bvh/batch";
+export { WorkerPool, createInlinePool, listSource, tileUnits, shareBuffers, type PoolWorker, type AsyncWorkerApi, type UnitSource, type RunOptions } from "./workers/pool";
+export { createWorkerApi, probeUnit, type TracerWorkerApi, type KernelName } from "./workers/worker-api";
+export { renderProgressive, passesOf, type RenderSession, type RenderProgressiveOptions, type ProgressEvent, type SessionResult, type SessionStatus } from "./workers/render-session";
