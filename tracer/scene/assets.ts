@@ -36,7 +36,11 @@ const KIND_WORD: Record<AssetKind, string> = { mesh: "mesh", envmap: "environmen
  * (`objects[3].shape.asset: mesh "meshes/kettle.obj": line 12: face index 40 out of range`). An empty
  * list means compileScene can rely on the bytes.
  */
-export function checkSceneAssets(scene: Scene, assets: ReadonlyMap<string, Uint8Array>): AssetIssue[] {
+export function checkSceneAssets(
+  scene: Scene,
+  assets: ReadonlyMap<string, Uint8Array>,
+  limits: { maxTriangles: number; maxAssetBytes: number; maxMapPixels: number } = LIMITS,
+): AssetIssue[] {
   const issues: AssetIssue[] = [];
   let triangles = 0;
   const parsedTriangles = new Map<string, number>();
@@ -48,8 +52,8 @@ export function checkSceneAssets(scene: Scene, assets: ReadonlyMap<string, Uint8
       issues.push({ path: use.path, message: `${label} was not found` });
       continue;
     }
-    if (bytes.length > LIMITS.maxAssetBytes) {
-      issues.push({ path: use.path, message: `${label} is ${bytes.length} bytes, more than the ${LIMITS.maxAssetBytes}-byte limit` });
+    if (bytes.length > limits.maxAssetBytes) {
+      issues.push({ path: use.path, message: `${label} is ${bytes.length} bytes, more than the ${limits.maxAssetBytes}-byte limit` });
       continue;
     }
     try {
@@ -57,24 +61,27 @@ export function checkSceneAssets(scene: Scene, assets: ReadonlyMap<string, Uint8
         let count = parsedTriangles.get(use.ref);
         if (count === undefined) {
           decoder ??= new TextDecoder("utf-8");
-          const remaining = Math.max(0, LIMITS.maxTriangles - triangles);
+          const remaining = Math.max(0, limits.maxTriangles - triangles);
           count = parseObj(decoder.decode(bytes), { maxTriangles: remaining }).indices.length / 3;
           parsedTriangles.set(use.ref, count);
         }
         triangles += count;
-        if (triangles > LIMITS.maxTriangles) {
-          issues.push({ path: use.path, message: `the scene's meshes have more than ${LIMITS.maxTriangles} triangles in total` });
+        if (triangles > limits.maxTriangles) {
+          issues.push({ path: use.path, message: `${label} takes the scene's meshes past the ${limits.maxTriangles}-triangle limit` });
         }
       } else {
         const size = readHdrSize(bytes);
-        if (size.width * size.height > LIMITS.maxMapPixels) {
-          issues.push({ path: use.path, message: `${label} is ${size.width}×${size.height}, more than the ${LIMITS.maxMapPixels}-pixel limit` });
+        if (size.width * size.height > limits.maxMapPixels) {
+          issues.push({ path: use.path, message: `${label} is ${size.width}×${size.height}, more than the ${limits.maxMapPixels}-pixel limit` });
           continue;
         }
         decodeHdr(bytes);
       }
     } catch (e) {
-      if (e instanceof ObjError || e instanceof ImageFormatError) issues.push({ path: use.path, message: `${label}: ${e.message}` });
+      if (e instanceof ObjError && use.kind === "mesh" && /^line \d+: more than \d+ triangles$/.test(e.message)) {
+        issues.push({ path: use.path, message: `${label} takes the scene's meshes past the ${limits.maxTriangles}-triangle limit (at its line ${e.line})` });
+        triangles = limits.maxTriangles + 1;
+      } else if (e instanceof ObjError || e instanceof ImageFormatError) issues.push({ path: use.path, message: `${label}: ${e.message}` });
       else throw e;
     }
   }
