@@ -18,20 +18,19 @@ export async function loader({ request }: Route.LoaderArgs) {
 }
 
 export async function action({ request }: Route.ActionArgs) {
-  // The strategy reads a clone of the body, so the original is still readable here afterwards.
+  // The strategy reads its own clone of the body; this clone is for the fields it does not care about.
+  const form = await request.clone().formData();
+  const email = String(form.get("email") ?? "").slice(0, 320);
   let user;
   try {
     user = await authenticator.authenticate("password", request);
   } catch (e) {
-    const form = await request.formData();
-    const email = String(form.get("email") ?? "").slice(0, 320);
     if (e instanceof ThrottledError) {
       return data({ error: e.message, field: null, email }, { status: 429, headers: { "Retry-After": String(e.retryAfterSeconds) } });
     }
     if (e instanceof SignInError) return data({ error: e.message, field: e.field, email }, { status: e.field ? 400 : 401 });
     throw e;
   }
-  const form = await request.formData();
   const cookie = await startSession(request, user.id);
   return redirect(safeNext(form.get("next")), { headers: { "Set-Cookie": cookie } });
 }
