@@ -73,6 +73,7 @@ export default function SceneEditor({
   const editorRef = useRef<monaco.editor.IStandaloneCodeEditor | null>(null);
   const applyingRef = useRef(false);
   const [ready, setReady] = useState(false);
+  const flashRef = useRef<monaco.editor.IEditorDecorationsCollection | null>(null);
   const canEdit = useStore(store, (s) => s.canEdit);
   const issues = useStore(store, (s) => s.issues);
   const text = useStore(store, (s) => s.text);
@@ -93,6 +94,15 @@ export default function SceneEditor({
     } finally {
       applyingRef.current = false;
     }
+    // Show where a form, undo or write-back changed the text, briefly marked.
+    const a = model.getPositionAt(e.start);
+    const b = model.getPositionAt(e.start + e.text.length);
+    const changed = new monaco.Range(a.lineNumber, 1, b.lineNumber, model.getLineMaxColumn(b.lineNumber));
+    ed.revealRangeInCenterIfOutsideViewport(changed);
+    flashRef.current?.clear();
+    flashRef.current = ed.createDecorationsCollection([{ range: changed, options: { isWholeLine: true, className: "tw-changed-line" } }]);
+    const flash = flashRef.current;
+    setTimeout(() => flash.clear(), 1500);
   }, [text, ready]);
 
   // Validation markers at the member each issue names.
@@ -140,7 +150,7 @@ export default function SceneEditor({
   };
 
   return (
-    <div className="h-full min-h-0" data-testid="scene-editor">
+    <div className="h-full min-h-0 [&_.tw-changed-line]:bg-accent/20" data-testid="scene-editor">
       <Editor
         height={height}
         defaultLanguage="json"

@@ -1,0 +1,258 @@
+// The scene workspace end to end in Chromium: a form edit shows in the JSON, the preview accumulates a set
+// number of samples in web workers, the light balance changes the picture without re-rendering and writes
+// back as an undoable edit, saving makes a version, and a save conflict from a second person is shown and
+// resolved without losing anything typed. Runs against a served build with the test database (bin/test).
+import { randomUUID } from "node:crypto";
+import { eq } from "drizzle-orm";
+import type { Page } from "playwright-core";
+import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { memberships, projects, users } from "~/db/schema";
+import { createScene, getHead, getVersion } from "~/models/scene.server";
+import { db } from "~/services/db.server";
+import { hashPassword } from "~/services/password.server";
+import { gotoHydrated, isLocal, newPerson, screenshot } from "../support/browser";
+
+const PASSWORD = "wren-kettle-glaze-42";
+
+// Our own scenario: the Wren kettle stand-in on a bench with a key and a fill light, small enough to finish
+// in a few seconds on one worker.
+const scene = {
+  format: "tracewell.scene/1",
+  name: "Wren kettle, workspace test",
+  image: { width: 48, height: 36 },
+  camera: { position: [0, 1, 4], target: [0, 0.5, 0], fovY: 40 },
+  render: { spp: 16, seed: 3, maxDepth: 4 },
+  display: { exposure: 0, toneMap: "none" },
+  materials: {
+    glaze: { type: "diffuse", albedo: [0.8, 0.75, 0.7] },
+    bench: { type: "diffuse", albedo: [0.5, 0.5, 0.5] },
+  },
+  objects: [
+    { id: "kettle", shape: { type: "sphere", center: [0, 0.5, 0], radius: 0.5 }, material: "glaze" },
+    { id: "bench", shape: { type: "box", min: [-2, -0.1, -2], max: [2, 0, 2] }, material: "bench" },
+  ],
+  lights: [
+    { id: "key", type: "area", shape: { type: "rect", center: [1, 2.5, 1], u: [0.6, 0, 0], v: [0, 0, -0.6] }, power: 40, group: "key" },
+    { id: "fill", type: "area", shape: { type: "disk", center: [-2, 1.5, 1], normal: [1, -0.5, -0.5], radius: 0.3 }, radiance: [2, 2, 2.4], group: "fill" },
+  ],
+};
+
+type Person = Awaited<ReturnType<typeof newPerson>>;
+
+async function makeUser(label: string) {
+  const tag = randomUUID().slice(0, 8);
+  const email = `${label}-${tag}@example.test`;
+  const [u] = await db().insert(users).values({ email, name: `${label} ${tag}`, passwordHash: await hashPassword(PASSWORD) }).returning();
+  return { id: u!.id, email, name: u!.name };
+}
+
+async function signIn(p: Person, email: string) {
+  await gotoHydrated(p.page, "/login?next=/projects");
+  await p.page.getByLabel("E-mail").fill(email);
+  await p.page.getByLabel("Password").fill(PASSWORD);
+  await p.page.getByRole("button", { name: "Sign in" }).click();
+  await p.page.waitForURL((u) => u.pathname === "/projects", { timeout: 60_000 });
+}
+
+/** The text of the JSON editor's visible lines (Monaco renders only what is on screen). */
+const editorText = (page: Page) => page.locator("[data-testid=scene-editor] .view-lines").innerText();
+
+async function openWorkspace(page: Page, path: string) {
+  await gotoHydrated(page, path);
+  await page.waitForSelector("[data-testid=scene-editor] .monaco-editor", { timeout: 60_000 });
+}
+
+async function sppDone(page: Page): Promise<number> {
+  return Number(await page.getByTestId("spp-done").innerText());
+}
+
+/** Mean of the canvas's RGB bytes: a summary of the picture's brightness. */
+async function canvasMean(page: Page): Promise<number> {
+  return page.evaluate(() => {
+    const c = document.querySelector<HTMLCanvasElement>("[data-testid=preview] canvas")!;
+    const d = c.getContext("2d")!.getImageData(0, 0, c.width, c.height).data;
+    let s = 0;
+    for (let i = 0; i < d.length; i += 4) s += d[i]! + d[i + 1]! + d[i + 2]!;
+    return s / ((d.length / 4) * 3);
+  });
+}
+
+describe("scene workspace", () => {
+  let owner: { id: string; email: string; name: string };
+  let editor: { id: string; email: string; name: string };
+  let viewer: { id: string; email: string; name: string };
+  let projectId: string;
+  let sceneId: string;
+  let path: string;
+  let a: Person;
+  let b: Person;
+
+  beforeAll(async () => {
+    owner = await makeUser("maren-ws");
+    editor = await makeUser("tobias-ws");
+    viewer = await makeUser("priya-ws");
+    const [project] = await db().insert(projects).values({ name: `Harrow Lane workspace ${randomUUID().slice(0, 6)}`, createdBy: owner.id }).returning();
+    projectId = project!.id;
+    await db().insert(memberships).values([
+      { projectId, userId: owner.id, role: "owner" },
+      { projectId, userId: editor.id, role: "editor" },
+      { projectId, userId: viewer.id, role: "viewer" },
+    ]);
+    const created = await createScene({ projectId, name: "Wren kettle workspace test", scene, authorId: owner.id, message: "First setup" });
+    if (!created.ok) throw new Error(JSON.stringify(created.issues));
+    sceneId = created.scene.id;
+    path = `/projects/${projectId}/scenes/${sceneId}`;
+    a = await newPerson();
+    b = await newPerson();
+    await signIn(a, owner.email);
+    await signIn(b, editor.email);
+  });
+
+  afterAll(async () => {
+    await a?.close();
+    await b?.close();
+    if (projectId) await db().delete(projects).where(eq(projects.id, projectId));
+  });
+
+  it("a light's power edited in its form appears in the JSON, and undo takes it back", async () => {
+    const { page } = a;
+    await openWorkspace(page, path);
+    const power = page.getByLabel("Light key: Power (W)");
+    await expect(power.inputValue()).resolves.toBe("40");
+    await power.fill("80");
+    await expect.poll(() => editorText(page)).toContain('"power": 80');
+    await page.locator("body").click({ position: { x: 5, y: 5 } });
+    await page.keyboard.press("Control+z");
+    await expect.poll(() => power.inputValue()).toBe("40");
+    await expect.poll(() => editorText(page)).toContain('"power": 40');
+    await page.keyboard.press("Control+Shift+z");
+    await expect.poll(() => power.inputValue()).toBe("80");
+  });
+
+  it("the preview accumulates the scene's 16 samples per pixel in workers", async () => {
+    const { page } = a;
+    await expect.poll(() => sppDone(page), { timeout: 120_000, interval: 250 }).toBeGreaterThanOrEqual(4);
+    await expect.poll(() => page.getByTestId("progress-status").innerText(), { timeout: 120_000 }).toBe("Reached the target");
+    expect(await sppDone(page)).toBe(16);
+    expect(await page.getByTestId("spp-target").innerText()).toBe("16");
+    expect(await page.getByTestId("noise").innerText()).toMatch(/^\d+(\.\d)?%$/);
+    const workers = await page.evaluate(() => performance.getEntriesByType("resource").map((e) => e.name).filter((n) => /worker/.test(n)));
+    expect(workers.some((n) => /workspace-session/.test(n))).toBe(true);
+    expect(workers.some((n) => /browser\.worker/.test(n))).toBe(true);
+    await screenshot(page, "workspace-rendered");
+  });
+
+  it("light balance changes the picture without re-rendering and writes back as one undoable edit", async () => {
+    const { page } = a;
+    await page.getByRole("tab", { name: "Light balance" }).click();
+    const before = await canvasMean(page);
+    const spp = await sppDone(page);
+    await page.getByLabel("Group key: gain in stops").fill("1");
+    await expect.poll(() => canvasMean(page)).toBeGreaterThan(before + 1);
+    expect(await sppDone(page)).toBe(spp); // same accumulation: nothing restarted
+    expect(await page.getByTestId("progress-status").innerText()).toBe("Reached the target");
+    await page.getByRole("button", { name: "Write balance into the scene" }).click();
+    // +1 stop = ×2 on the key's 80 W.
+    await expect.poll(() => editorText(page)).toContain('"power": 160');
+    await expect.poll(() => page.getByLabel("Group key: gain in stops").inputValue()).toBe("0");
+    await page.getByRole("button", { name: "Undo" }).click();
+    await expect.poll(() => editorText(page)).toContain('"power": 80');
+    await page.getByRole("button", { name: "Redo" }).click();
+    await expect.poll(() => editorText(page)).toContain('"power": 160');
+  });
+
+  it("saves a version with a required message; the parent is the version the edit started from", async () => {
+    const { page } = a;
+    await page.getByRole("button", { name: "Save version…" }).click();
+    await page.getByRole("button", { name: "Save", exact: true }).click();
+    await expect(page.getByText("the message is required").first().isVisible()).resolves.toBe(true);
+    await page.getByLabel("What changed?").fill("Key up a stop via the light balance");
+    await page.getByRole("button", { name: "Save", exact: true }).click();
+    await expect.poll(() => page.getByTestId("base-version").innerText()).toBe("from version 2");
+    const head = await getHead(sceneId);
+    expect(head?.number).toBe(2);
+    expect(head?.message).toBe("Key up a stop via the light balance");
+    const parent = await getVersion(head!.parentId!);
+    expect(parent?.number).toBe(1);
+    expect((head!.scene as typeof scene).lights[0]!.power).toBe(160);
+  });
+
+  it("a conflicting save from a second person is refused, explained, and resolved without losing edits", async () => {
+    // Tobias opens version 2 and saves a camera change first.
+    await openWorkspace(b.page, path);
+    await b.page.locator("[data-testid=camera-form] summary").click();
+    await b.page.getByLabel("camera: Vertical view (°)").fill("32");
+    await b.page.getByRole("button", { name: "Save version…" }).click();
+    await b.page.getByLabel("What changed?").fill("Tighter framing");
+    await b.page.getByRole("button", { name: "Save", exact: true }).click();
+    await expect.poll(() => b.page.getByTestId("base-version").innerText()).toBe("from version 3");
+
+    // Maren, still on version 2, changes the key and tries to save.
+    const { page } = a;
+    await page.getByRole("tab", { name: "Scene" }).click();
+    await page.getByLabel("Light key: Power (W)").fill("120");
+    await page.getByRole("button", { name: "Save version…" }).click();
+    await page.getByLabel("What changed?").fill("Key to 120 W");
+    await page.getByRole("button", { name: "Save", exact: true }).click();
+    const dialog = page.getByTestId("save-conflict");
+    await dialog.waitFor({ timeout: 30_000 });
+    expect(await dialog.getByRole("heading").innerText()).toMatch(/version 3 was saved while you were editing/);
+    expect(await page.getByTestId("conflict-theirs").innerText()).toMatch(/fovY 40 → 32/);
+    expect(await page.getByTestId("conflict-mine").innerText()).toMatch(/power 40 → 120/);
+    expect((await getHead(sceneId))?.number).toBe(3); // refused: nothing written
+    expect(await page.getByLabel("Light key: Power (W)").inputValue()).toBe("120"); // nothing typed is lost
+    await screenshot(page, "workspace-conflict");
+
+    await dialog.getByRole("button", { name: "Keep my edits on top of version 3" }).click();
+    expect(await page.getByLabel("What changed?").inputValue()).toBe("Key to 120 W");
+    await page.getByRole("button", { name: "Save", exact: true }).click();
+    await expect.poll(() => page.getByTestId("base-version").innerText()).toBe("from version 4");
+    const head = await getHead(sceneId);
+    expect(head?.number).toBe(4);
+    expect((await getVersion(head!.parentId!))?.number).toBe(3);
+    expect((head!.scene as typeof scene).lights[0]!.power).toBe(120);
+  });
+
+  it("keeps unsaved edits in a local draft across a reload", async () => {
+    const { page } = a;
+    await page.getByLabel("Light key: Power (W)").fill("150");
+    await expect.poll(() => page.getByTestId("unsaved").isVisible()).toBe(true);
+    await page.waitForTimeout(600); // the draft is written 300 ms after the last edit
+    await openWorkspace(page, path);
+    await expect.poll(() => page.getByText("Restored your unsaved edits").isVisible()).toBe(true);
+    expect(await page.getByLabel("Light key: Power (W)").inputValue()).toBe("150");
+    expect(a.requests.filter((r) => !isLocal(r))).toEqual([]); // Monaco and workers come from our own server
+  });
+
+  it("shows invalid edits in place and keeps the last good picture", async () => {
+    const { page } = a;
+    await page.getByText("Lights (2)").isVisible();
+    await page.getByLabel("Light fill: Radius (m)").fill("-0.3");
+    await expect.poll(() => page.getByTestId("scene-issues").innerText()).toContain("lights[1].shape.radius");
+    await expect.poll(() => page.locator("[data-testid=scene-editor] .squiggly-error").count()).toBeGreaterThan(0);
+    expect(await page.locator("[data-testid=preview] canvas").count()).toBe(1);
+    await expect(page.getByRole("button", { name: "Save version…" }).isDisabled()).resolves.toBe(true);
+    await page.keyboard.press("Control+z");
+    await expect.poll(() => page.getByTestId("scene-valid").isVisible()).toBe(true);
+  });
+
+  it("viewers see the scene but cannot save", async () => {
+    const c = await newPerson();
+    try {
+      await signIn(c, viewer.email);
+      await openWorkspace(c.page, path);
+      expect(await c.page.getByTestId("read-only").innerText()).toMatch(/cannot|not edit or save/);
+      expect(await c.page.getByRole("button", { name: "Save version…" }).count()).toBe(0);
+      await expect(c.page.getByLabel("Light key: Power (W)").isDisabled()).resolves.toBe(true);
+      // The server refuses a hand-made save too.
+      const res = await c.page.evaluate(async (url) => {
+        const body = new URLSearchParams({ intent: "save", message: "sneaky", parentVersionId: "00000000-0000-0000-0000-000000000000", sceneText: "{}" });
+        const r = await fetch(url, { method: "POST", body });
+        return r.status;
+      }, `${path}.data`);
+      expect(res).toBe(404);
+    } finally {
+      await c.close();
+    }
+  });
+});
