@@ -33,10 +33,14 @@ export default [
   route("projects/:projectId/assets/upload", "routes/projects.$projectId.assets.upload.ts"),
   route("projects/:projectId/assets/:sha", "routes/projects.$projectId.assets.$sha.ts"),
   route("projects/:projectId/assets.json", "routes/projects.$projectId.assets[.]json.ts"),
+  route("projects/:projectId/scenes/:sceneId/versions/:versionId/bundle", "routes/projects.$projectId.scenes.$sceneId.versions.$versionId.bundle.ts"),
+  route("s/:token/assets/:sha", "routes/s.$token.assets.$sha.ts"),
+  route("s/:token/renders/:renderId/:file", "routes/s.$token.renders.$renderId.$file.ts"),
 
   layout("routes/app-shell.tsx", [
     route("projects", "routes/projects._index.tsx"),
     route("account", "routes/account.tsx"),
+    route("s/:token", "routes/s.$token.tsx"),
     // One project: header and tab bar. Tabs (renders, assets, sharing, ...) are added as children here.
     route("projects/:projectId", "routes/projects.$projectId.tsx", [
       index("routes/projects.$projectId._index.tsx"),
@@ -48,6 +52,7 @@ export default [
       route("renders", "routes/projects.$projectId.renders._index.tsx"),
       route("renders/compare", "routes/projects.$projectId.renders.compare.tsx"),
       route("assets", "routes/projects.$projectId.assets._index.tsx"),
+      route("sharing", "routes/projects.$projectId.sharing.tsx"),
     ]),
   ]),
 ] satisfies RouteConfig;

@@ -2,15 +2,9 @@
 // library's thumbnails and the compare page use them); ?download=1 asks the browser to save the file.
 import { data } from "react-router";
 import { getRender } from "~/models/render.server";
-import { downloadName, readRenderFile, RENDER_FILE_TYPES, type RenderFileKind } from "~/services/render-files.server";
+import { downloadName, parseRenderFile, readRenderFile, RENDER_FILE_TYPES } from "~/services/render-files.server";
 import { requireInProject } from "~/services/project-access.server";
 import type { Route } from "./+types/projects.$projectId.renders.$renderId.files.$file";
-
-export function parseRenderFile(file: string): RenderFileKind | { group: string } | null {
-  if (file in RENDER_FILE_TYPES) return file as RenderFileKind;
-  const m = /^group-([A-Za-z0-9_-]{1,64})$/.exec(file);
-  return m ? { group: m[1]! } : null;
-}
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   await requireInProject(request, params.projectId, { renderId: params.renderId }, "view");

@@ -45,9 +45,9 @@ export default function CompareVersions({ loaderData }: Route.ComponentProps) {
   const d = loaderData;
   const base = `/projects/${d.projectId}/scenes/${d.scene.id}`;
   return (
-    <div className="mx-auto flex max-w-6xl flex-col gap-4 p-6">
+    <div className="flex flex-col gap-4 p-6">
       <header className="flex items-center gap-3">
-        <h1 className="text-xl font-bold">Compare versions · {d.scene.name}</h1>
+        <h2 className="text-lg font-medium">Compare versions · {d.scene.name}</h2>
         <Link className={buttonClass("secondary", "sm", "ml-auto")} to={`${base}/history`}>
           Back to history
         </Link>

@@ -126,9 +126,9 @@ export default function SceneHistory({ loaderData, actionData }: Route.Component
   const base = `/projects/${projectId}/scenes/${scene.id}`;
 
   return (
-    <div className="mx-auto flex max-w-6xl flex-col gap-4 p-6">
+    <div className="flex flex-col gap-4 p-6">
       <header className="flex flex-wrap items-center gap-3">
-        <h1 className="text-xl font-bold">{scene.name}</h1>
+        <h2 className="text-lg font-medium">{scene.name}</h2>
         <span className="text-sm text-ink-muted">history · {versions.length} version{versions.length === 1 ? "" : "s"}</span>
         <div className="ml-auto flex gap-2">
           <Link className={buttonClass("secondary", "sm")} to={base}>
@@ -216,6 +216,9 @@ export default function SceneHistory({ loaderData, actionData }: Route.Component
                       <Link className={buttonClass("quiet", "sm")} to={`${base}?version=${v.id}`}>
                         Open
                       </Link>
+                      <a className={buttonClass("quiet", "sm")} href={`${base}/versions/${v.id}/bundle`} download title="Download this version with its assets as one file">
+                        Bundle
+                      </a>
                       {canEdit && v.id !== head && head ? (
                         <Form method="post">
                           <input type="hidden" name="intent" value="restore" />

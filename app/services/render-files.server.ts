@@ -109,3 +109,10 @@ export function renderDownloadUrl(files: RenderFiles, kind: RenderFileKind): Pro
   const key = files[kind];
   return key ? presignDownload(key) : null;
 }
+
+/** "pfm", "png", … or "group-<name>" as used in download URLs. */
+export function parseRenderFile(file: string): RenderFileKind | { group: string } | null {
+  if (Object.prototype.hasOwnProperty.call(RENDER_FILE_TYPES, file)) return file as RenderFileKind;
+  const m = /^group-([A-Za-z0-9_-]{1,64})$/.exec(file);
+  return m ? { group: m[1]! } : null;
+}
