@@ -20,7 +20,7 @@ import { TRACER_VERSION } from "@tracer/version";
 const MAX_CHUNKS = 1024;
 
 // Body fields that override scene fields, so a validation problem is reported under the name the caller sent.
-const OVERRIDE_PATHS: Record<string, string> = { "image.width": "width", "image.height": "height", "render.seed": "seed" };
+const OVERRIDE_PATHS: Record<string, string> = { image: "width", "image.width": "width", "image.height": "height", "render.seed": "seed" };
 
 function chunking(body: CreateRenderBody, from: number, to: number) {
   const chunkPasses = body.chunkPasses ?? defaultChunkPasses(to - from);

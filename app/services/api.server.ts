@@ -1,7 +1,7 @@
 // Everything API v1 routes share: one error shape, body and query parsing with zod, bearer authentication
 // through the same permissions module as the pages, a per-token rate limit, cursors and ETags.
 import { z } from "zod";
-import { authorize, getActor, type Ability, type Actor } from "~/services/permissions.server";
+import { authorize, getActor, scopeAllows, type Ability, type Actor } from "~/services/permissions.server";
 
 export type ApiIssue = { path: string; message: string; line?: number; column?: number };
 
@@ -320,7 +320,8 @@ export async function requireAbility(actor: AuthedActor, target: Target, ability
   if (ability !== "view") {
     const view = await authorize(actor, target, "view");
     if (view.ok) {
-      const why = actor.kind === "token" ? `a token of scope "${actor.scope}"` : `your role "${view.role}"`;
+      const scopeRefuses = actor.kind === "token" && !scopeAllows(actor.scope, ability);
+      const why = scopeRefuses && actor.kind === "token" ? `a token of scope "${actor.scope}"` : `your role "${view.role}"`;
       throw new ApiError(403, "forbidden", `${why} does not allow "${ability}" on this ${what.split(" ")[0]}`);
     }
   }

@@ -1,7 +1,7 @@
 // Shared by the API and pool integration tests: unique people, projects, scenes and tokens (the test
 // database is shared, nothing is ever truncated), a served build of the app, and render worker processes.
 import { spawn, type ChildProcess } from "node:child_process";
-import { existsSync, statSync, readdirSync } from "node:fs";
+import { existsSync, mkdirSync, readdirSync, rmSync, statSync } from "node:fs";
 import { createServer } from "node:net";
 import { join } from "node:path";
 import { randomUUID } from "node:crypto";
@@ -105,11 +105,27 @@ function run(cmd: string, args: string[], env: NodeJS.ProcessEnv): Promise<void>
   });
 }
 
-/** Builds the app when there is no build or the sources are newer than it. */
+/** Builds the app when there is no build or the sources are newer than it (one test file at a time). */
 export async function ensureBuild(): Promise<void> {
-  const server = join(ROOT, "build/server/index.js");
-  const stale = !existsSync(server) || Math.max(newestMtime(join(ROOT, "app")), newestMtime(join(ROOT, "tracer"))) > statSync(server).mtimeMs;
-  if (stale) await run(join(BIN, "react-router"), ["build"], process.env);
+  const lock = join(ROOT, ".data/api-test-build.lock");
+  mkdirSync(join(ROOT, ".data"), { recursive: true });
+  for (;;) {
+    try {
+      mkdirSync(lock);
+      break;
+    } catch {
+      // Another test file is building; a lock older than five minutes was left by a killed run.
+      if (existsSync(lock) && Date.now() - statSync(lock).mtimeMs > 300_000) rmSync(lock, { recursive: true, force: true });
+      await new Promise((r) => setTimeout(r, 500));
+    }
+  }
+  try {
+    const server = join(ROOT, "build/server/index.js");
+    const stale = !existsSync(server) || Math.max(newestMtime(join(ROOT, "app")), newestMtime(join(ROOT, "tracer"))) > statSync(server).mtimeMs;
+    if (stale) await run(join(BIN, "react-router"), ["build"], process.env);
+  } finally {
+    rmSync(lock, { recursive: true, force: true });
+  }
 }
 
 export type Served = { baseUrl: string; stop(): Promise<void> };
@@ -171,7 +187,9 @@ export function startWorker(name: string, extraEnv: Record<string, string> = {})
   const env: NodeJS.ProcessEnv = {};
   for (const k of keep) if (process.env[k] !== undefined) env[k] = process.env[k];
   let out = "";
-  const child = spawn(join(BIN, "tsx"), ["app/workers/render-worker.ts"], {
+  // node --import tsx (not the tsx binary, which runs the script in a child process): a signal sent to this
+  // process must reach the worker itself, as SIGKILL from an out-of-memory killer would.
+  const child = spawn(process.execPath, ["--import", "tsx", "app/workers/render-worker.ts"], {
     cwd: ROOT,
     env: { ...env, RENDER_WORKER_NAME: name, RENDER_WORKER_POLL_SECONDS: "0.5", RENDER_WORKER_MAINTENANCE_SECONDS: "1", ...extraEnv },
     stdio: ["ignore", "pipe", "pipe"],
