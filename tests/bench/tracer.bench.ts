@@ -1,0 +1,224 @@
+/**
+ * Tracer benchmark: `npm run bench:tracer [-- --json out.json] [--tiny] [--workers N] [--skip-big]`
+ *
+ * Prints, in one run: the BVH comparison with three-mesh-bvh (build ms, Mrays/s per ray set and the
+ * ratios, on the Stanford bunny and midpoint subdivisions of it), the bytes per triangle of a compiled
+ * ~1M-triangle scene, path-tracing samples per second for each example scene, the worker scaling table
+ * and peak memory. Wall-clock figures; the machine may be shared, so every comparison is run
+ * interleaved in the same process and printed as a ratio. `--tiny` runs every section on small inputs
+ * (used by a vitest smoke test).
+ */
+import { readdirSync, readFileSync, writeFileSync } from "node:fs";
+import { availableParallelism } from "node:os";
+import path from "node:path";
+import { fileURLToPath, pathToFileURL } from "node:url";
+import { parseArgs } from "node:util";
+import { compileScene } from "../../tracer/compile/compile";
+import type { CompiledScene } from "../../tracer/compile/types";
+import { createRenderScratch, renderUnit } from "../../tracer/render/unit";
+import { validateScene, formatIssue } from "../../tracer/scene/validate";
+import { SceneSchema } from "../../tracer/scene/schema";
+import { loadSceneAssetsFromDisk } from "../../tracer/io/files.node.js";
+import { createNodePool } from "../../tracer/workers/node-pool";
+import { renderProgressive } from "../../tracer/workers/render-session";
+import { compareMesh, type MeshFigures } from "./bvh-compare";
+import { loadBunny, subdivideTo, type BenchMesh } from "./meshes";
+
+const here = path.dirname(fileURLToPath(import.meta.url));
+const scenesDir = path.resolve(here, "../../scenes");
+
+export type BenchOptions = { tiny: boolean; workers: number; skipBig: boolean; log: (s: string) => void };
+
+export type SceneFigures = { scene: string; width: number; height: number; passes: number; samplesPerSecond: number; primitives: number };
+export type ScalingRow = { workers: number; samplesPerSecond: number; speedup: number; efficiency: number };
+
+export type BenchFigures = {
+  node: string;
+  cores: number;
+  tiny: boolean;
+  meshes: MeshFigures[];
+  compiledScene: { triangles: number; bytes: number; bytesPerTriangle: number; compileMs: number } | null;
+  scenes: SceneFigures[];
+  scaling: { scene: string; passes: number; rows: ScalingRow[] };
+  peakRssMB: number;
+};
+
+/** Wavefront OBJ text for a mesh (1-based indices). */
+function toObj(mesh: BenchMesh): Uint8Array {
+  const parts: string[] = [`# ${mesh.name}, generated for the tracer benchmark\n`];
+  const p = mesh.positions;
+  for (let i = 0; i < p.length; i += 3) parts.push(`v ${p[i]} ${p[i + 1]} ${p[i + 2]}\n`);
+  const x = mesh.indices;
+  for (let i = 0; i < x.length; i += 3) parts.push(`f ${x[i]! + 1} ${x[i + 1]! + 1} ${x[i + 2]! + 1}\n`);
+  return new TextEncoder().encode(parts.join(""));
+}
+
+/** Bytes of every distinct buffer reachable from a compiled scene. */
+function compiledBytes(c: CompiledScene): number {
+  const seen = new Set<ArrayBufferLike>();
+  let total = 0;
+  const walk = (v: unknown): void => {
+    if (ArrayBuffer.isView(v)) {
+      if (!seen.has(v.buffer)) { seen.add(v.buffer); total += v.buffer.byteLength; }
+    } else if (Array.isArray(v)) v.forEach(walk);
+    else if (v !== null && typeof v === "object") Object.values(v).forEach(walk);
+  };
+  walk(c);
+  return total;
+}
+
+function meshScene(mesh: BenchMesh): { compiled: CompiledScene; ms: number } {
+  const scene = SceneSchema.parse({
+    format: "tracewell.scene/1",
+    name: "Benchmark mesh",
+    image: { width: 64, height: 64 },
+    camera: { position: [0, 0.1, 0.35], target: [0, 0.1, 0], fovY: 40 },
+    render: { spp: 1 },
+    materials: { clay: { type: "diffuse", albedo: [0.7, 0.7, 0.7] } },
+    objects: [{ id: "bunny", shape: { type: "mesh", asset: "meshes/bench.obj" }, material: "clay" }],
+  });
+  const assets = new Map([["meshes/bench.obj", toObj(mesh)]]);
+  const t0 = performance.now();
+  const compiled = compileScene(scene, assets);
+  return { compiled, ms: performance.now() - t0 };
+}
+
+async function loadExampleScene(file: string, tiny: boolean): Promise<CompiledScene> {
+  const text = readFileSync(path.join(scenesDir, file), "utf8");
+  const result = validateScene(text);
+  if (!result.ok) throw new Error(`${file}: ${result.issues.map(formatIssue).join("; ")}`);
+  let scene = result.scene;
+  if (tiny) scene = { ...scene, image: { ...scene.image, width: 24, height: 16 } };
+  const assets = await loadSceneAssetsFromDisk(scene, scenesDir);
+  return compileScene(scene, assets);
+}
+
+/** Single-threaded samples per second: whole image, `passes` passes, in 32-pixel tiles. */
+function sceneSpeed(c: CompiledScene, passes: number): number {
+  const scratch = createRenderScratch(c);
+  const t0 = performance.now();
+  for (let y = 0; y < c.height; y += 32) {
+    for (let x = 0; x < c.width; x += 32) {
+      renderUnit(c, { x0: x, y0: y, x1: Math.min(c.width, x + 32), y1: Math.min(c.height, y + 32), passStart: 0, passEnd: passes }, scratch);
+    }
+  }
+  return (c.width * c.height * passes) / ((performance.now() - t0) / 1000);
+}
+
+export async function runBench(opts: BenchOptions): Promise<BenchFigures> {
+  const { log, tiny } = opts;
+  log(`Tracer benchmark — Node ${process.version}, ${availableParallelism()} cores${tiny ? " (tiny inputs)" : ""}`);
+
+  // 1. BVH against three-mesh-bvh.
+  log("\nBVH and closest-hit rays vs three-mesh-bvh (single thread, same mesh and rays; best of interleaved runs)");
+  const bunny = loadBunny();
+  const meshes: BenchMesh[] = tiny ? [bunny] : [bunny, subdivideTo(bunny, 50_000), ...(opts.skipBig ? [] : [subdivideTo(bunny, 900_000)])];
+  const meshFigures: MeshFigures[] = [];
+  for (const m of meshes) {
+    const big = m.indices.length / 3 > 500_000;
+    meshFigures.push(compareMesh(m, {
+      rays: tiny ? 2000 : big ? 40_000 : 100_000,
+      buildRuns: tiny ? 1 : big ? 2 : 5,
+      minMs: tiny ? 0 : 400,
+      rounds: tiny ? 1 : 3,
+      log,
+    }));
+  }
+
+  // 2. Memory of a compiled scene holding the biggest mesh.
+  let compiledScene: BenchFigures["compiledScene"] = null;
+  {
+    const m = meshes.at(-1)!;
+    const { compiled, ms } = meshScene(m);
+    const bytes = compiledBytes(compiled);
+    const triangles = m.indices.length / 3;
+    compiledScene = { triangles, bytes, bytesPerTriangle: bytes / triangles, compileMs: ms };
+    log(`\nCompiled scene with ${triangles} triangles: ${(bytes / 1048576).toFixed(1)} MB = ${(bytes / triangles).toFixed(1)} bytes/triangle (compile incl. OBJ parse and BVH: ${ms.toFixed(0)} ms)`);
+  }
+
+  // 3. Path tracing per example scene, single thread.
+  log("\nPath tracing, single thread (whole image, samples = pixels × passes)");
+  const sceneFigures: SceneFigures[] = [];
+  const files = readdirSync(scenesDir).filter((f) => f.endsWith(".json")).sort();
+  const loaded = new Map<string, CompiledScene>();
+  for (const f of files) {
+    let c: CompiledScene;
+    try {
+      c = await loadExampleScene(f, tiny);
+    } catch (e) {
+      log(`  ${f}: skipped (${e instanceof Error ? e.message : String(e)})`);
+      continue;
+    }
+    loaded.set(f, c);
+    const passes = tiny ? 1 : 2;
+    sceneSpeed(c, 1); // warm-up pass
+    const sps = sceneSpeed(c, passes);
+    sceneFigures.push({ scene: f, width: c.width, height: c.height, passes, samplesPerSecond: sps, primitives: c.primCount });
+    log(`  ${f.padEnd(34)} ${`${c.width}×${c.height}`.padStart(9)}  ${String(c.primCount).padStart(7)} prims  ${(sps / 1000).toFixed(1).padStart(7)} k samples/s`);
+  }
+
+  // 4. Worker scaling on one scene through the progressive session (the path the app and CLI use).
+  const scaleFile = loaded.has("lightbox-spheres.json") ? "lightbox-spheres.json" : [...loaded.keys()][0];
+  const rows: ScalingRow[] = [];
+  const scalePasses = tiny ? 2 : 4;
+  if (scaleFile) {
+    const c = loaded.get(scaleFile)!;
+    log(`\nWorker scaling (${scaleFile}, ${c.width}×${c.height}, ${scalePasses} passes, 32-px tiles, 1 pass per unit; Node worker_threads)`);
+    for (let k = 1; k <= opts.workers; k++) {
+      const pool = createNodePool(k);
+      try {
+        await pool.loadScene(c);
+        // Warm every worker's JIT on the same scene before timing.
+        await renderProgressive(c, { pool, passes: 1, passesPerUnit: 1, tileSize: 32 }).done;
+        const r = await renderProgressive(c, { pool, passes: scalePasses, passesPerUnit: 1, tileSize: 32 }).done;
+        const base = rows[0]?.samplesPerSecond ?? r.samplesPerSecond;
+        const row = { workers: k, samplesPerSecond: r.samplesPerSecond, speedup: r.samplesPerSecond / base, efficiency: r.samplesPerSecond / base / k };
+        rows.push(row);
+        log(`  ${String(k).padStart(2)} worker${k > 1 ? "s" : " "}  ${(row.samplesPerSecond / 1000).toFixed(1).padStart(7)} k samples/s  speedup ×${row.speedup.toFixed(2)}  efficiency ${(row.efficiency * 100).toFixed(0)}%`);
+      } finally {
+        await pool.terminate();
+      }
+    }
+  }
+
+  const peakRssMB = process.resourceUsage().maxRSS / 1024;
+  log(`\nPeak RSS of this process: ${peakRssMB.toFixed(0)} MB`);
+  return {
+    node: process.version,
+    cores: availableParallelism(),
+    tiny,
+    meshes: meshFigures,
+    compiledScene,
+    scenes: sceneFigures,
+    scaling: { scene: scaleFile ?? "", passes: scalePasses, rows },
+    peakRssMB,
+  };
+}
+
+async function main(): Promise<void> {
+  const { values } = parseArgs({
+    options: {
+      json: { type: "string" },
+      tiny: { type: "boolean", default: false },
+      workers: { type: "string" },
+      "skip-big": { type: "boolean", default: false },
+    },
+  });
+  const workers = values.workers ? Number(values.workers) : Math.max(2, availableParallelism());
+  if (!(Number.isInteger(workers) && workers >= 1)) {
+    console.error(`--workers must be a whole number ≥ 1 (got ${values.workers})`);
+    process.exit(2);
+  }
+  const figures = await runBench({ tiny: values.tiny, workers, skipBig: values["skip-big"], log: (s) => console.log(s) });
+  if (values.json) {
+    writeFileSync(values.json, JSON.stringify(figures, null, 2) + "\n");
+    console.log(`\nFigures written to ${values.json}`);
+  }
+}
+
+if (process.argv[1] && import.meta.url === pathToFileURL(path.resolve(process.argv[1])).href) {
+  main().catch((e: unknown) => {
+    console.error(e instanceof Error ? e.stack ?? e.message : String(e));
+    process.exit(1);
+  });
+}
