@@ -18,7 +18,7 @@ import { handMadeScenes, type Json } from "./fuzz/scene-mutator";
 import type { FuzzMessage, FuzzRange } from "./fuzz/fuzz-worker";
 
 const ROOT = fileURLToPath(new URL("../../../", import.meta.url));
-const CASES = Number(process.env.FUZZ_CASES ?? 3000);
+const CASES = Number(process.env.FUZZ_CASES ?? 2000);
 const FROM = Number(process.env.FUZZ_FROM ?? 0);
 /** No progress for this long means a hang (a normal case takes milliseconds, the slowest seen ~1 s). */
 const HANG_MS = 120_000;
