@@ -87,7 +87,7 @@ export function toneMapRgb(r: number, g: number, b: number, display: Display, ou
   if (display.toneMap === "reinhard") {
     // On luminance, keeping chromaticity: scale RGB by Ld / L.
     const l = luminance709(r, g, b);
-    const s = l > 0 ? reinhard(l) / l : 0;
+    const s = l > 0 ? 1 / (1 + l) : 0; // reinhard(l) / l, written as displayToRgba8 computes it
     out[0] = r * s;
     out[1] = g * s;
     out[2] = b * s;
@@ -103,18 +103,77 @@ export function toneMapRgb(r: number, g: number, b: number, display: Display, ou
 }
 
 /**
+ * Linear thresholds of the 8-bit sRGB codes: T[c] is the smallest value whose srgbEncode8 is ≥ c.
+ * Found by bisection on srgbEncode8 itself, so the table reproduces it exactly (it is monotonic) while
+ * a frame costs eight comparisons per channel instead of a pow().
+ */
+let codeThresholds: Float64Array | null = null;
+
+function thresholds(): Float64Array {
+  if (codeThresholds) return codeThresholds;
+  const t = new Float64Array(256);
+  t[0] = -Infinity;
+  for (let c = 1; c < 256; c++) {
+    let lo = 0;
+    let hi = 1;
+    for (let k = 0; k < 200; k++) {
+      const mid = (lo + hi) / 2;
+      if (mid === lo || mid === hi) break;
+      if (srgbEncode8(mid) >= c) hi = mid;
+      else lo = mid;
+    }
+    t[c] = hi;
+  }
+  codeThresholds = t;
+  return t;
+}
+
+/** Same result as srgbEncode8 for every input (NaN → 0), by binary search in the threshold table. */
+export function srgbEncode8Fast(x: number, t: Float64Array = thresholds()): number {
+  if (!(x >= t[1]!)) return 0;
+  if (x >= t[255]!) return 255;
+  let lo = 1;
+  let hi = 255;
+  while (hi - lo > 1) {
+    const mid = (lo + hi) >> 1;
+    if (x >= t[mid]!) lo = mid;
+    else hi = mid;
+  }
+  return lo;
+}
+
+/**
  * 8-bit RGBA (alpha 255), row 0 = top, ready for ImageData or PNG. `out` may be reused between frames.
  */
 export function displayToRgba8(img: FloatImage, display: Display, out?: Uint8ClampedArray): Uint8ClampedArray {
   const n = img.width * img.height;
   const rgba = out && out.length === n * 4 ? out : new Uint8ClampedArray(n * 4);
   const d = img.data;
-  const t = new Float64Array(3);
+  const t = thresholds();
+  const k = Math.pow(2, display.exposure);
+  const mode = display.toneMap === "reinhard" ? 1 : display.toneMap === "filmic" ? 2 : 0;
   for (let i = 0; i < n; i++) {
-    toneMapRgb(d[i * 3]!, d[i * 3 + 1]!, d[i * 3 + 2]!, display, t);
-    rgba[i * 4] = srgbEncode8(t[0]!);
-    rgba[i * 4 + 1] = srgbEncode8(t[1]!);
-    rgba[i * 4 + 2] = srgbEncode8(t[2]!);
+    // negative and NaN radiance cannot be shown
+    let r = d[i * 3]!;
+    let g = d[i * 3 + 1]!;
+    let b = d[i * 3 + 2]!;
+    r = r > 0 ? r * k : 0;
+    g = g > 0 ? g * k : 0;
+    b = b > 0 ? b * k : 0;
+    if (mode === 1) {
+      const l = LUMA_R * r + LUMA_G * g + LUMA_B * b;
+      const s = l > 0 ? 1 / (1 + l) : 0; // reinhard(l) / l
+      r *= s;
+      g *= s;
+      b *= s;
+    } else if (mode === 2) {
+      r = filmicAces(r);
+      g = filmicAces(g);
+      b = filmicAces(b);
+    }
+    rgba[i * 4] = srgbEncode8Fast(r, t);
+    rgba[i * 4 + 1] = srgbEncode8Fast(g, t);
+    rgba[i * 4 + 2] = srgbEncode8Fast(b, t);
     rgba[i * 4 + 3] = 255;
   }
   return rgba;

@@ -9,6 +9,7 @@ import {
   srgbDecode,
   srgbEncode,
   srgbEncode8,
+  srgbEncode8Fast,
   toneMapRgb,
 } from "../../../tracer/film/display";
 
@@ -151,5 +152,47 @@ describe("displayToRgba8", () => {
     const r = displayToRgba8(img, { exposure: 0, toneMap: "none" }, out);
     expect(r).toBe(out);
     expect(Array.from(r)).toEqual([255, 0, 0, 255, 0, 0, 0, 255, 255, 255, 255, 255, 188, 188, 188, 255]);
+  });
+});
+
+describe("fast 8-bit path", () => {
+  it("matches srgbEncode8 exactly, including next to every code boundary", () => {
+    for (let c = 1; c < 256; c++) {
+      // the linear value whose encoding is exactly the boundary between codes c-1 and c
+      const edge = srgbDecode((c - 0.5) / 255);
+      for (const x of [edge * (1 - 1e-12), edge, edge * (1 + 1e-12), edge * (1 - 1e-15), edge * (1 + 1e-15)]) {
+        expect(srgbEncode8Fast(x)).toBe(srgbEncode8(x));
+      }
+    }
+    let s = 12345;
+    const mismatches: number[] = [];
+    for (let i = 0; i < 100000; i++) {
+      s = (Math.imul(s, 1103515245) + 12345) >>> 0;
+      const x = (s / 2 ** 32) * 1.2 - 0.1;
+      if (srgbEncode8Fast(x) !== srgbEncode8(x)) mismatches.push(x);
+    }
+    expect(mismatches).toEqual([]);
+    expect(srgbEncode8Fast(Number.NaN)).toBe(0);
+  });
+
+  it("displayToRgba8 equals toneMapRgb followed by srgbEncode8, pixel by pixel", () => {
+    const n = 4000;
+    const data = new Float32Array(n * 3);
+    for (let i = 0; i < data.length; i++) data[i] = Math.pow(2, ((i * 7919) % 1000) / 100 - 6);
+    const img = { width: 80, height: 50, data };
+    for (const display of [
+      { exposure: 0, toneMap: "none" as const },
+      { exposure: -1.5, toneMap: "reinhard" as const },
+      { exposure: 2, toneMap: "filmic" as const },
+    ]) {
+      const rgba = displayToRgba8(img, display);
+      const expected = new Uint8ClampedArray(n * 4);
+      const t = [0, 0, 0];
+      for (let p = 0; p < n; p++) {
+        toneMapRgb(data[p * 3]!, data[p * 3 + 1]!, data[p * 3 + 2]!, display, t);
+        expected.set([...t.map(srgbEncode8), 255], p * 4);
+      }
+      expect(rgba).toEqual(expected);
+    }
   });
 });
