@@ -9,7 +9,7 @@ import { validateScene } from "@tracer/scene/validate";
 import type { Scene } from "@tracer/scene/schema";
 import { assets, scenes, sceneVersions, users } from "~/db/schema";
 import { inspectAsset, mapThumbnail, type AssetFacts, type AssetKind } from "~/lib/asset-inspect";
-import { db } from "~/services/db.server";
+import { db, type Database } from "~/services/db.server";
 import { deleteObject, getObjectBytes, objectExists, putObject } from "~/services/storage.server";
 
 export type AssetRow = typeof assets.$inferSelect;
@@ -44,12 +44,15 @@ export class AssetError extends Error {
  * Validate, then store the bytes (once per content) and record the asset in the project. Uploading the
  * same content again is not an error: the existing entry is returned (renamed if a new name was given).
  */
-export async function uploadAsset(input: {
-  projectId: string;
-  name: string;
-  bytes: Uint8Array;
-  uploadedBy: string | null;
-}): Promise<{ asset: AssetRow; created: boolean }> {
+export async function uploadAsset(
+  input: {
+    projectId: string;
+    name: string;
+    bytes: Uint8Array;
+    uploadedBy: string | null;
+  },
+  conn: Database = db(),
+): Promise<{ asset: AssetRow; created: boolean }> {
   const name = input.name.trim().slice(0, 200) || "unnamed";
   const inspection = inspectAsset(name, input.bytes);
   if (!inspection.ok) throw new AssetError(inspection.message, input.bytes.length > 0 && /limit/.test(inspection.message) ? 413 : 400);
@@ -67,13 +70,13 @@ export async function uploadAsset(input: {
     facts.thumb = assetThumbKey(sha);
   }
 
-  const inserted = await db()
+  const inserted = await conn
     .insert(assets)
     .values({ projectId: input.projectId, sha256: sha, name, kind: inspection.kind, bytes: input.bytes.length, facts, uploadedBy: input.uploadedBy })
     .onConflictDoNothing()
     .returning();
   if (inserted[0]) return { asset: inserted[0], created: true };
-  const existing = await getAsset(input.projectId, sha);
+  const [existing] = await conn.select().from(assets).where(and(eq(assets.projectId, input.projectId), eq(assets.sha256, sha)));
   return { asset: existing!, created: false };
 }
 
