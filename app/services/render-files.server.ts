@@ -110,9 +110,10 @@ export function renderDownloadUrl(files: RenderFiles, kind: RenderFileKind): Pro
   return key ? presignDownload(key) : null;
 }
 
-/** "pfm", "png", … or "group-<name>" as used in download URLs. */
+/** "pfm", "png", … or "group-<name>" as used in URLs; the stored names ("display.png", "group-key.pfm") work too. */
 export function parseRenderFile(file: string): RenderFileKind | { group: string } | null {
   if (Object.prototype.hasOwnProperty.call(RENDER_FILE_TYPES, file)) return file as RenderFileKind;
-  const m = /^group-([A-Za-z0-9_-]{1,64})$/.exec(file);
+  for (const kind of Object.keys(RENDER_FILE_TYPES) as RenderFileKind[]) if (RENDER_FILE_TYPES[kind].name === file) return kind;
+  const m = /^group-([A-Za-z0-9_-]{1,64})(\.pfm)?$/.exec(file);
   return m ? { group: m[1]! } : null;
 }
