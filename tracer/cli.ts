@@ -159,9 +159,9 @@ function tiles(width: number, height: number, passStart: number, passEnd: number
 }
 
 async function render(compiled: CompiledScene, opts: Options, progress: (passesDone: number) => void): Promise<{ acc: Accumulation; workers: number }> {
-  const acc = createAccumulation(compiled.width, compiled.height, compiled.groupNames.length);
-  const chunks = passChunks(compiled.spp);
   if (opts.workers <= 1) {
+    const acc = createAccumulation(compiled.width, compiled.height, compiled.groupNames.length);
+    const chunks = passChunks(compiled.spp);
     const scratch = createRenderScratch(compiled);
     for (const [p0, p1] of chunks) {
       for (const unit of tiles(compiled.width, compiled.height, p0, p1)) addUnit(acc, renderUnit(compiled, unit, scratch));
@@ -170,18 +170,22 @@ async function render(compiled: CompiledScene, opts: Options, progress: (passesD
     return { acc, workers: 1 };
   }
   const { createNodePool } = await import("./workers/node-pool");
-  const { listSource } = await import("./workers/pool");
+  const { renderProgressive } = await import("./workers/render-session");
   const pool = createNodePool(opts.workers);
   try {
     await pool.loadScene(compiled);
-    for (const [p0, p1] of chunks) {
-      await pool.run(listSource(tiles(compiled.width, compiled.height, p0, p1)), { onResult: (r) => addUnit(acc, r) });
-      progress(p1);
-    }
+    const passesPerUnit = Math.max(1, Math.ceil(compiled.spp / 8));
+    const session = renderProgressive(compiled, {
+      pool,
+      passesPerUnit,
+      tileSize: TILE,
+      onProgress: (e) => progress(e.passesDone),
+    });
+    const result = await session.done;
+    return { acc: result.accumulation, workers: opts.workers };
   } finally {
     await pool.terminate();
   }
-  return { acc, workers: opts.workers };
 }
 
 function encode(kind: OutputKind, img: FloatImage, scene: Scene): Uint8Array {
