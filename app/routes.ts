@@ -39,6 +39,7 @@ export default [
 
   layout("routes/app-shell.tsx", [
     route("projects", "routes/projects._index.tsx"),
+    route("docs/api", "routes/docs.api.tsx"),
     route("account", "routes/account.tsx"),
     route("s/:token", "routes/s.$token.tsx"),
     // One project: header and tab bar. Tabs (renders, assets, sharing, ...) are added as children here.
@@ -53,6 +54,7 @@ export default [
       route("renders/compare", "routes/projects.$projectId.renders.compare.tsx"),
       route("assets", "routes/projects.$projectId.assets._index.tsx"),
       route("sharing", "routes/projects.$projectId.sharing.tsx"),
+      route("pool", "routes/projects.$projectId.pool.tsx"),
     ]),
   ]),
 ] satisfies RouteConfig;

@@ -1,8 +1,8 @@
 // Pool renders: a render row (source "pool") plus one render_chunks row per range of sample passes.
 // Every function takes the database as an argument because the render worker runs outside the web app,
 // with only DATABASE_URL and the object store settings (no session secret, no mail).
-import { and, asc, eq, inArray, sql } from "drizzle-orm";
-import { renderChunks, renders, type RenderFiles } from "~/db/schema";
+import { and, asc, desc, eq, inArray, sql } from "drizzle-orm";
+import { renderChunks, renders, scenes, type RenderFiles } from "~/db/schema";
 import type { Database } from "~/services/db.server";
 
 export type PoolRender = typeof renders.$inferSelect;
@@ -196,4 +196,26 @@ export async function cancelPoolRender(db: Database, renderId: string): Promise<
       .where(and(eq(renderChunks.renderId, renderId), inArray(renderChunks.status, ["pending", "running", "failed"])));
     return true;
   });
+}
+
+export type PoolRenderWithChunks = PoolRender & { chunks: RenderChunk[]; sceneName: string };
+
+/** A project's pool renders for the pool page: everything queued or running, then the most recent others. */
+export async function listPoolRenders(db: Database, projectId: string, recent = 10): Promise<PoolRenderWithChunks[]> {
+  const rows = await db
+    .select({ render: renders, sceneName: scenes.name })
+    .from(renders)
+    .innerJoin(scenes, eq(scenes.id, renders.sceneId))
+    .where(and(eq(renders.projectId, projectId), eq(renders.source, "pool")))
+    .orderBy(sql`case when ${renders.status} in ('queued', 'running') then 0 else 1 end`, desc(renders.createdAt))
+    .limit(200);
+  const active = rows.filter((r) => r.render.status === "queued" || r.render.status === "running");
+  const shown = [...active, ...rows.filter((r) => !active.includes(r)).slice(0, recent)];
+  if (shown.length === 0) return [];
+  const chunks = await db
+    .select()
+    .from(renderChunks)
+    .where(inArray(renderChunks.renderId, shown.map((r) => r.render.id)))
+    .orderBy(asc(renderChunks.renderId), asc(renderChunks.index));
+  return shown.map((r) => ({ ...r.render, sceneName: r.sceneName, chunks: chunks.filter((c) => c.renderId === r.render.id) }));
 }
