@@ -41,6 +41,15 @@ describe("ray–triangle (Möller & Trumbore 1997)", () => {
     expect(v).toBeCloseTo(1 / 3, 6);
   });
 
+  it("hits with axis-parallel rays whose origin lies on a box face", () => {
+    // Both x and y direction components are 0 and the origin sits on the box's min-x plane: a
+    // slab test with an infinite reciprocal would compute ∞ − ∞ here.
+    const tri = one([0, 0, 0, 1, 0, 0, 0, 1, 0], [0, 1, 2]);
+    expect(castOne(tri, [0, 0.25, 1], [0, 0, -1])[0]).toBe(1);
+    expect(castOne(tri, [0.25, 0, -3], [0, 0, 1])[0]).toBe(3);
+    expect(castOne(tri, [-1e-9, 0.25, 1], [0, 0, -1])[0]).toBe(Infinity);
+  });
+
   it("respects tmin and tmax and reports the nearer of two stacked triangles", () => {
     const mesh = one([0, 0, 0, 1, 0, 0, 0, 1, 0, 0, 0, -2, 1, 0, -2, 0, 1, -2], [0, 1, 2, 3, 4, 5]);
     expect(castOne(mesh, [0.2, 0.2, 1], [0, 0, -1])[3]).toBe(0);
