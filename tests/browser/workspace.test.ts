@@ -208,7 +208,7 @@ describe("scene workspace", () => {
     await dialog.waitFor({ timeout: 30_000 });
     expect(await dialog.getByRole("heading", { level: 2 }).innerText()).toMatch(/version 3 was saved while you were editing/);
     expect(await page.getByTestId("conflict-theirs").innerText()).toMatch(/fovY 40 → 32/);
-    expect(await page.getByTestId("conflict-mine").innerText()).toMatch(/power 40 → 120/);
+    expect(await page.getByTestId("conflict-mine").innerText()).toMatch(/power 160 → 120/);
     expect((await getHead(sceneId))?.number).toBe(3); // refused: nothing written
     expect(await page.getByLabel("Light key: Power (W)").inputValue()).toBe("120"); // nothing typed is lost
     await screenshot(page, "workspace-conflict");
