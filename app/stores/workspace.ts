@@ -215,7 +215,31 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
   });
 }
 
-/** Text of a stored scene as the editor shows it. */
+/** Order of keys when a stored scene (the database does not keep key order) is shown in the editor. */
+const KEY_ORDER = [
+  "format", "name", "notes", "image", "camera", "render", "display", "environment", "materials", "objects", "lights",
+  "id", "type", "shape", "material", "center", "u", "v", "normal", "radius", "min", "max", "asset", "translate", "rotate", "scale",
+  "position", "target", "up", "fovY", "aperture", "focusDistance", "shutter",
+  "radiance", "power", "intensity", "visible", "group", "motion", "velocity",
+  "albedo", "reflectance", "roughness", "ior", "absorption",
+  "width", "height", "integrator", "spp", "seed", "maxDepth", "clamp", "exposure", "toneMap",
+  "zenith", "horizon", "ground", "rotationY",
+];
+const rank = (k: string) => {
+  const i = KEY_ORDER.indexOf(k);
+  return i < 0 ? KEY_ORDER.length : i;
+};
+
+function ordered(value: unknown, inRecord = false): unknown {
+  if (Array.isArray(value)) return value.map((v) => ordered(v));
+  if (value === null || typeof value !== "object") return value;
+  const entries = Object.entries(value as Record<string, unknown>);
+  // Material ids are the author's names: keep them in their own (alphabetical) order, but order inside each.
+  if (!inRecord) entries.sort((a, b) => rank(a[0]) - rank(b[0]));
+  return Object.fromEntries(entries.map(([k, v]) => [k, ordered(v, k === "materials" && !inRecord)]));
+}
+
+/** Text of a stored scene as the editor shows it: 2-space JSON in the scene format's reading order. */
 export function sceneToText(scene: unknown): string {
-  return JSON.stringify(scene, null, 2) + "\n";
+  return JSON.stringify(ordered(scene), null, 2) + "\n";
 }

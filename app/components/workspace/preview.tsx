@@ -55,6 +55,17 @@ export function PreviewCanvas() {
   const status = usePreview((s) => s.status);
   const error = usePreview((s) => s.error);
   const [focusPx, setFocusPx] = useState<[number, number] | null>(null);
+  // The picture is scaled to fit the panel (up or down) keeping its aspect ratio.
+  const boxRef = useRef<HTMLDivElement>(null);
+  const [box, setBox] = useState<[number, number] | null>(null);
+  useEffect(() => {
+    const el = boxRef.current;
+    if (!el) return;
+    const ro = new ResizeObserver(() => setBox([el.clientWidth - 16, el.clientHeight - 16]));
+    ro.observe(el);
+    return () => ro.disconnect();
+  }, []);
+  const fit = image && box ? ((k) => [Math.floor(image.width * k), Math.floor(image.height * k)] as const)(Math.max(0.01, Math.min(box[0] / image.width, box[1] / image.height))) : null;
 
   useEffect(() => {
     const c = canvasRef.current;
@@ -101,15 +112,14 @@ export function PreviewCanvas() {
   };
 
   return (
-    <div className="relative flex min-h-0 flex-1 items-center justify-center overflow-hidden bg-[#0e0e0f] p-2" data-testid="preview">
+    <div ref={boxRef} className="relative flex min-h-0 flex-1 items-center justify-center overflow-hidden bg-[#0e0e0f] p-2" data-testid="preview">
       {image ? (
-        <div className="relative max-h-full max-w-full" style={{ aspectRatio: `${image.width} / ${image.height}` }}>
+        <div className="relative" style={fit ? { width: fit[0], height: fit[1] } : undefined}>
           <canvas
             ref={canvasRef}
             tabIndex={0}
             aria-label="Preview image. Move the cursor or use the arrow keys to probe a pixel; click or press Enter to measure the light arriving there."
-            className="block h-full max-h-full w-full max-w-full cursor-crosshair object-contain [image-rendering:pixelated]"
-            style={{ aspectRatio: `${image.width} / ${image.height}` }}
+            className="block h-full w-full cursor-crosshair [image-rendering:pixelated]"
             onMouseMove={(e) => setCursor(toPixel(e))}
             onMouseLeave={() => setCursor(focusPx)}
             onClick={(e) => {

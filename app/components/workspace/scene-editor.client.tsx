@@ -12,8 +12,7 @@ import EditorWorker from "monaco-editor/editor/editor.worker?worker";
 import JsonWorker from "monaco-editor/language/json/json.worker?worker";
 import { useEffect, useRef, useState } from "react";
 import { useStore } from "zustand";
-import { z } from "zod";
-import { SceneSchema } from "@tracer/scene/schema";
+import sceneJsonSchema from "@tracer/scene/scene.schema.json";
 import { parseIssuePath, rangeOfPath } from "~/lib/workspace-json";
 import type { WorkspaceStore } from "~/stores/workspace";
 
@@ -40,7 +39,7 @@ function configureMonaco(): void {
     enableSchemaRequest: false,
     allowComments: false,
     trailingCommas: "error",
-    schemas: [{ uri: SCHEMA_URI, fileMatch: [MODEL_URI], schema: z.toJSONSchema(SceneSchema, { io: "input", unrepresentable: "any" }) }],
+    schemas: [{ uri: SCHEMA_URI, fileMatch: [MODEL_URI], schema: sceneJsonSchema }],
   });
 }
 

@@ -168,3 +168,17 @@ describe("workspace store: versions", () => {
     expect(st().base.id).toBe("v3");
   });
 });
+
+describe("sceneToText", () => {
+  it("shows a stored scene in reading order whatever order the database returned, and keeps every value", () => {
+    const shuffled = { lights: kettleScene.lights, name: kettleScene.name, camera: { fovY: 40, target: [0, 0.5, 0], position: [0, 1, 4] }, format: kettleScene.format, image: kettleScene.image, render: kettleScene.render, materials: { zinc: { roughness: 0.1, type: "metal", reflectance: [1, 1, 1] }, ash: { albedo: [0.5, 0.5, 0.5], type: "diffuse" } }, objects: [] };
+    const text = sceneToText(shuffled);
+    expect(JSON.parse(text)).toEqual(shuffled);
+    const keys = Object.keys(JSON.parse(text) as object);
+    expect(keys.slice(0, 3)).toEqual(["format", "name", "image"]);
+    expect(Object.keys((JSON.parse(text) as { camera: object }).camera)).toEqual(["position", "target", "fovY"]);
+    const mats = (JSON.parse(text) as { materials: Record<string, object> }).materials;
+    expect(Object.keys(mats)).toEqual(["zinc", "ash"]); // the author's ids are not reordered
+    expect(Object.keys(mats.zinc!)).toEqual(["type", "reflectance", "roughness"]);
+  });
+});
