@@ -111,7 +111,7 @@ ensure_database() { # $1 = database name
 
 recreate_database() { # $1 = database name
   local name="$1"
-  "$PGBIN/psql" -h 127.0.0.1 -p "$PG_PORT" -U postgres -qc "SET client_min_messages = warning; DROP DATABASE IF EXISTS \"$name\" WITH (FORCE)" >/dev/null
+  PGOPTIONS="-c client_min_messages=warning" "$PGBIN/psql" -h 127.0.0.1 -p "$PG_PORT" -U postgres -qc "DROP DATABASE IF EXISTS \"$name\" WITH (FORCE)" >/dev/null
   "$PGBIN/psql" -h 127.0.0.1 -p "$PG_PORT" -U postgres -qc "CREATE DATABASE \"$name\"" >/dev/null
 }
 
