@@ -59,7 +59,7 @@ export class PreviewRenderer {
   }
 
   start(scene: unknown, opts: { scale: number; noiseTarget: number | null }): void {
-    this.store.setState({ status: "compiling", error: null, stopReason: null });
+    this.store.setState({ status: "compiling", error: null, stopReason: null, sppDone: 0, relStdError: Infinity, samplesPerSecond: 0, elapsedMs: 0 });
     void this.api
       .start(scene, { ...opts, assetBase: this.assetBase }, proxy((f: SessionFrame) => this.onFrame(f)))
       .catch((e: unknown) => this.store.setState({ status: "error", error: e instanceof Error ? e.message : String(e) }));
