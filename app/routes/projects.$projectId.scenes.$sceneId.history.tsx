@@ -9,7 +9,7 @@ import { copyAssetsForScene } from "~/models/asset.server";
 import { logActivity } from "~/models/activity.server";
 import { listProjectsForUser } from "~/models/project.server";
 import { forkScene, getForkOrigin, getScene, listForks, listVersions, restoreVersion } from "~/models/scene.server";
-import { authorize, getActor } from "~/services/permissions.server";
+import { authorize } from "~/services/permissions.server";
 import { notFound, requireInProject } from "~/services/project-access.server";
 import type { Route } from "./+types/projects.$projectId.scenes.$sceneId.history";
 
