@@ -1,5 +1,7 @@
 // API v1 over real HTTP against the built server, with tokens of each scope and people of each role.
 // No render worker runs here (renders stay queued); the pool itself is tested in pool.test.ts.
+import { Validator } from "@seriousme/openapi-schema-validator";
+import { Ajv2020 } from "ajv/dist/2020.js";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import type { ApiRender, ApiVersion } from "~/services/api-schemas.server";
 import { dbPool } from "~/services/db.server";
@@ -13,6 +15,9 @@ let scene: Awaited<ReturnType<typeof makeScene>>;
 let readToken: string;
 let renderToken: string;
 
+/** Checks an answer against a component schema of the served OpenAPI document (JSON Schema 2020-12, via ajv). */
+let conforms: (schemaId: string, body: unknown) => string | null = () => "schemas not loaded";
+
 beforeAll(async () => {
   served = await serveApp();
   base = served.baseUrl;
@@ -21,6 +26,14 @@ beforeAll(async () => {
   scene = await makeScene(project.id, owner.id);
   readToken = await makeToken(owner.id, "read");
   renderToken = await makeToken(owner.id, "render");
+  const doc = (await client(base).get("/api/v1/openapi.json")).json;
+  const ajv = new Ajv2020({ strict: false, validateFormats: false });
+  ajv.addSchema({ $id: "tracewell-openapi", components: doc.components }, "tracewell-openapi");
+  conforms = (id, body) => {
+    const check = ajv.getSchema(`tracewell-openapi#/components/schemas/${id}`);
+    if (!check) return `no schema ${id}`;
+    return check(body) ? null : ajv.errorsText(check.errors);
+  };
 });
 
 afterAll(async () => {
@@ -69,6 +82,28 @@ describe("authentication and the error shape", () => {
     expect(doc.components.schemas.CreateVersionBody.required?.sort()).toEqual(["message", "parentVersionId", "scene"]);
     expect(Object.keys(doc.components.schemas.Render.properties ?? {})).toContain("accumulationHash");
     expect(Object.keys(doc.components.schemas.Error.properties ?? {})).toEqual(["error"]);
+    // The official OpenAPI 3.1 JSON Schema (via @seriousme/openapi-schema-validator) accepts the document.
+    const result = await new Validator().validate(res.json);
+    expect(result.errors ?? null).toBeNull();
+    expect(result.valid).toBe(true);
+  });
+
+  it("answers in the shapes the OpenAPI document declares", async () => {
+    const api = client(base, renderToken);
+    expect(conforms("ProjectPage", (await api.get("/api/v1/projects")).json)).toBeNull();
+    expect(conforms("ScenePage", (await api.get(`/api/v1/projects/${project.id}/scenes`)).json)).toBeNull();
+    expect(conforms("VersionPage", (await api.get(`/api/v1/scenes/${scene.scene.id}/versions`)).json)).toBeNull();
+    expect(conforms("Version", (await api.get(`/api/v1/versions/${scene.version.id}`)).json)).toBeNull();
+    const queued = await api.post("/api/v1/renders", { versionId: scene.version.id, spp: 3, width: 8, height: 6 });
+    expect(conforms("Render", queued.json)).toBeNull();
+    const id = (queued.json as unknown as ApiRender).id;
+    expect(conforms("Render", (await api.get(`/api/v1/renders/${id}`)).json)).toBeNull();
+    expect(conforms("RenderPage", (await api.get(`/api/v1/projects/${project.id}/renders`)).json)).toBeNull();
+    expect(conforms("Error", (await api.get("/api/v1/renders/not-a-render")).json)).toBeNull();
+    expect(conforms("Error", (await api.post("/api/v1/renders", { spp: -1 })).json)).toBeNull();
+    // …and the check can fail: a render without its links is not a Render.
+    expect(conforms("Render", { ...(queued.json as object), links: undefined })).not.toBeNull();
+    await api.del(`/api/v1/renders/${id}`);
   });
 });
 
