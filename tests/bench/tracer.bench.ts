@@ -9,7 +9,7 @@
  * (used by a vitest smoke test).
  */
 import { readdirSync, readFileSync, writeFileSync } from "node:fs";
-import { availableParallelism } from "node:os";
+import { availableParallelism, loadavg } from "node:os";
 import path from "node:path";
 import { fileURLToPath, pathToFileURL } from "node:url";
 import { parseArgs } from "node:util";
@@ -21,7 +21,7 @@ import { SceneSchema } from "../../tracer/scene/schema";
 import { loadSceneAssetsFromDisk } from "../../tracer/io/files.node.js";
 import { createNodePool } from "../../tracer/workers/node-pool";
 import { renderProgressive } from "../../tracer/workers/render-session";
-import { compareMesh, type MeshFigures } from "./bvh-compare";
+import { compareMesh, cpuMs, type MeshFigures } from "./bvh-compare";
 import { loadBunny, subdivideTo, type BenchMesh } from "./meshes";
 
 const here = path.dirname(fileURLToPath(import.meta.url));
@@ -35,6 +35,7 @@ export type ScalingRow = { workers: number; samplesPerSecond: number; speedup: n
 export type BenchFigures = {
   node: string;
   cores: number;
+  loadAverage: number;
   tiny: boolean;
   meshes: MeshFigures[];
   compiledScene: { triangles: number; bytes: number; bytesPerTriangle: number; compileMs: number } | null;
@@ -78,9 +79,9 @@ function meshScene(mesh: BenchMesh): { compiled: CompiledScene; ms: number } {
     objects: [{ id: "bunny", shape: { type: "mesh", asset: "meshes/bench.obj" }, material: "clay" }],
   });
   const assets = new Map([["meshes/bench.obj", toObj(mesh)]]);
-  const t0 = performance.now();
-  const compiled = compileScene(scene, assets);
-  return { compiled, ms: performance.now() - t0 };
+  let compiled: CompiledScene | null = null;
+  const ms = cpuMs(() => { compiled = compileScene(scene, assets); });
+  return { compiled: compiled!, ms };
 }
 
 async function loadExampleScene(file: string, tiny: boolean): Promise<CompiledScene> {
@@ -93,24 +94,26 @@ async function loadExampleScene(file: string, tiny: boolean): Promise<CompiledSc
   return compileScene(scene, assets);
 }
 
-/** Single-threaded samples per second: whole image, `passes` passes, in 32-pixel tiles. */
+/** Single-threaded samples per CPU second: whole image, `passes` passes, in 32-pixel tiles. */
 function sceneSpeed(c: CompiledScene, passes: number): number {
   const scratch = createRenderScratch(c);
-  const t0 = performance.now();
-  for (let y = 0; y < c.height; y += 32) {
-    for (let x = 0; x < c.width; x += 32) {
-      renderUnit(c, { x0: x, y0: y, x1: Math.min(c.width, x + 32), y1: Math.min(c.height, y + 32), passStart: 0, passEnd: passes }, scratch);
+  const ms = cpuMs(() => {
+    for (let y = 0; y < c.height; y += 32) {
+      for (let x = 0; x < c.width; x += 32) {
+        renderUnit(c, { x0: x, y0: y, x1: Math.min(c.width, x + 32), y1: Math.min(c.height, y + 32), passStart: 0, passEnd: passes }, scratch);
+      }
     }
-  }
-  return (c.width * c.height * passes) / ((performance.now() - t0) / 1000);
+  });
+  return (c.width * c.height * passes) / (ms / 1000);
 }
 
 export async function runBench(opts: BenchOptions): Promise<BenchFigures> {
   const { log, tiny } = opts;
-  log(`Tracer benchmark — Node ${process.version}, ${availableParallelism()} cores${tiny ? " (tiny inputs)" : ""}`);
+  const load = loadavg()[0]!;
+  log(`Tracer benchmark — Node ${process.version}, ${availableParallelism()} cores, 1-min load average ${load.toFixed(1)}${tiny ? " (tiny inputs)" : ""}`);
 
   // 1. BVH against three-mesh-bvh.
-  log("\nBVH and closest-hit rays vs three-mesh-bvh (single thread, same mesh and rays; best of interleaved runs)");
+  log("\nBVH and closest-hit rays vs three-mesh-bvh (single thread, same mesh and rays; CPU time, best of interleaved runs)");
   const bunny = loadBunny();
   const meshes: BenchMesh[] = tiny ? [bunny] : [bunny, subdivideTo(bunny, 50_000), ...(opts.skipBig ? [] : [subdivideTo(bunny, 900_000)])];
   const meshFigures: MeshFigures[] = [];
@@ -119,6 +122,7 @@ export async function runBench(opts: BenchOptions): Promise<BenchFigures> {
     meshFigures.push(compareMesh(m, {
       rays: tiny ? 2000 : big ? 40_000 : 100_000,
       buildRuns: tiny ? 1 : big ? 2 : 5,
+      warmRuns: tiny ? 1 : big ? 1 : 3,
       minMs: tiny ? 0 : 400,
       rounds: tiny ? 1 : 3,
       log,
@@ -137,7 +141,7 @@ export async function runBench(opts: BenchOptions): Promise<BenchFigures> {
   }
 
   // 3. Path tracing per example scene, single thread.
-  log("\nPath tracing, single thread (whole image, samples = pixels × passes)");
+  log("\nPath tracing, single thread (whole image, samples = pixels × passes, per CPU second)");
   const sceneFigures: SceneFigures[] = [];
   const files = readdirSync(scenesDir).filter((f) => f.endsWith(".json")).sort();
   const loaded = new Map<string, CompiledScene>();
@@ -163,7 +167,7 @@ export async function runBench(opts: BenchOptions): Promise<BenchFigures> {
   const scalePasses = tiny ? 2 : 4;
   if (scaleFile) {
     const c = loaded.get(scaleFile)!;
-    log(`\nWorker scaling (${scaleFile}, ${c.width}×${c.height}, ${scalePasses} passes, 32-px tiles, 1 pass per unit; Node worker_threads)`);
+    log(`\nWorker scaling (${scaleFile}, ${c.width}×${c.height}, ${scalePasses} passes, 32-px tiles, 1 pass per unit; Node worker_threads; wall clock, load average now ${loadavg()[0]!.toFixed(1)})`);
     for (let k = 1; k <= opts.workers; k++) {
       const pool = createNodePool(k);
       try {
@@ -186,6 +190,7 @@ export async function runBench(opts: BenchOptions): Promise<BenchFigures> {
   return {
     node: process.version,
     cores: availableParallelism(),
+    loadAverage: load,
     tiny,
     meshes: meshFigures,
     compiledScene,

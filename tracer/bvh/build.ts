@@ -38,6 +38,18 @@ const W = 8; // NODE_WORDS, local so the hot loop reads a constant
  * An empty input gives one root node with an empty box (+∞ min, −∞ max) that every ray misses.
  */
 export function buildBvh(bounds: Float32Array, options: BuildBvhOptions = {}): Bvh {
+  return buildInto(bounds, false, options);
+}
+
+/**
+ * Same as buildBvh, but may reorder `bounds` in place instead of copying it: for callers that
+ * computed the boxes only to build the tree (saves one copy of 24 bytes per primitive).
+ */
+export function buildBvhConsuming(bounds: Float32Array, options: BuildBvhOptions = {}): Bvh {
+  return buildInto(bounds, true, options);
+}
+
+function buildInto(bounds: Float32Array, consume: boolean, options: BuildBvhOptions): Bvh {
   if (!warmed) warmUp();
   if (bounds.length % 6 !== 0) throw new Error(`buildBvh: bounds length ${bounds.length} is not a multiple of 6`);
   const n = bounds.length / 6;
@@ -54,8 +66,11 @@ export function buildBvh(bounds: Float32Array, options: BuildBvhOptions = {}): B
     nodes[3] = nodes[4] = nodes[5] = -Infinity;
     return { nodes, words, primIndices: ids, nodeCount: 1 };
   }
-  const box = bounds.slice(); // working copy, permuted alongside ids
-  const { nodes: nodeF, words: nodeU } = allocateNodes(2 * n - 1);
+  const box = consume ? bounds : bounds.slice(); // permuted alongside ids
+  // 2n − 1 nodes is the worst case (one primitive per leaf); most trees need far fewer, so start
+  // smaller and grow, which keeps untouched memory from being zeroed and copied.
+  let capacity = Math.min(2 * n - 1, n + 1024);
+  let { nodes: nodeF, words: nodeU } = allocateNodes(capacity);
 
   const s: Scratch = {
     box, ids, B,
@@ -81,6 +96,13 @@ export function buildBvh(bounds: Float32Array, options: BuildBvhOptions = {}): B
   let nodeCount = 0;
   for (;;) {
     const node = nodeCount++;
+    if (node >= capacity) {
+      capacity = Math.min(2 * n - 1, capacity * 2);
+      const grown = allocateNodes(capacity);
+      grown.nodes.set(nodeF);
+      nodeF = grown.nodes;
+      nodeU = grown.words;
+    }
     if (parent >= 0) nodeU[parent * W + 6] = node;
     const no = node * W;
     nodeF[no] = cur[0]; nodeF[no + 1] = cur[1]; nodeF[no + 2] = cur[2];
@@ -89,7 +111,8 @@ export function buildBvh(bounds: Float32Array, options: BuildBvhOptions = {}): B
 
     // -1: leaf, -2: split at the middle of the range, >= 0: split after this bin on `axis`.
     let split = -1, axis = 0;
-    if (count > 1 && depth < MAX_DEPTH) {
+    // Splitting costs at least Ct, so nodes of at most Ct primitives (and at most leafSize) stay leaves unbinned.
+    if (count > 1 && depth < MAX_DEPTH && !(count <= Ct && count <= leafSize)) {
       const bins = count < B ? (count < 4 ? 4 : count) : B;
       if (allAxes) binAll(s, start, end, bins);
       else binLongest(s, start, end, bins);
