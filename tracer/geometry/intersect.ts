@@ -42,6 +42,8 @@ export class Hit {
 /** Scratch for traversal; one per worker/thread. */
 export class TraceScratch {
   readonly stack = new Uint32Array(TRAVERSAL_STACK_SIZE);
+  /** entry distance of each pending node */
+  readonly dist = new Float64Array(TRAVERSAL_STACK_SIZE);
   // candidate hit parameters written by intersectPrim
   cu = 0;
   cv = 0;
@@ -145,76 +147,146 @@ export function intersectPrim(
 }
 
 /**
+ * Entry distance of the ray into the box of node `nb` (word offset), or Infinity if it misses the box or
+ * enters beyond tmax. A relative tolerance keeps grazing rays from slipping between float32 boxes.
+ */
+function boxEntry(
+  nodes: Float32Array,
+  nb: number,
+  ox: number,
+  oy: number,
+  oz: number,
+  ix: number,
+  iy: number,
+  iz: number,
+  tmax: number,
+): number {
+  // Slabs are chosen by the direction's sign (not by swapping), so an empty box (min > max) always misses.
+  let t0 = ((ix < 0 ? nodes[nb + 3] : nodes[nb]) - ox) * ix;
+  let t1 = ((ix < 0 ? nodes[nb] : nodes[nb + 3]) - ox) * ix;
+  const y0 = ((iy < 0 ? nodes[nb + 4] : nodes[nb + 1]) - oy) * iy;
+  const y1 = ((iy < 0 ? nodes[nb + 1] : nodes[nb + 4]) - oy) * iy;
+  if (y0 > t0) t0 = y0;
+  if (y1 < t1) t1 = y1;
+  const z0 = ((iz < 0 ? nodes[nb + 5] : nodes[nb + 2]) - oz) * iz;
+  const z1 = ((iz < 0 ? nodes[nb + 2] : nodes[nb + 5]) - oz) * iz;
+  if (z0 > t0) t0 = z0;
+  if (z1 < t1) t1 = z1;
+  // NaN (a ray lying in a slab plane with zero direction) fails these tests and leaves the slab open
+  if (t0 <= t1 * 1.0000001 + 1e-12 && t1 >= 0 && t0 < tmax) return t0 > 0 ? t0 : 0;
+  return Infinity;
+}
+
+/**
  * Closest hit along the ray within (0, ray.tmax). Fills hit.t, hit.prim, hit.u, hit.v; returns false on a
  * miss. With `anyHit` it stops at the first hit found (shadow rays). Primitive `skip` (or -1) is ignored:
  * a shadow ray aimed at a point on a light must not be stopped by that light's own surface, which
  * rounding near its silhouette would otherwise do.
+ *
+ * Both children's boxes are tested before descending; the nearer is visited first and the farther is
+ * pushed with its entry distance, so it is skipped once a closer hit is known.
  */
 export function traceRay(s: CompiledScene, ray: Ray, hit: Hit, ts: TraceScratch, anyHit: boolean, skip = -1): boolean {
   const nodes = s.bvh.nodes;
   const words = s.bvh.words;
   const primIdx = s.bvh.primIndices;
+  const info = s.primInfo;
+  const g = s.primGeom;
   const stack = ts.stack;
+  const dist = ts.dist;
   const ox = ray.ox, oy = ray.oy, oz = ray.oz;
   const dx = ray.dx, dy = ray.dy, dz = ray.dz;
   const time = ray.time;
   const ix = 1 / dx, iy = 1 / dy, iz = 1 / dz;
-  const negX = ix < 0, negY = iy < 0, negZ = iz < 0;
   let tmax = ray.tmax;
   let best = -1;
   let bu = 0, bv = 0;
   let sp = 0;
   let node = 0;
+  if (s.primCount === 0) return false;
+  if (boxEntry(nodes, 0, ox, oy, oz, ix, iy, iz, tmax) === Infinity) return false;
   for (;;) {
     const nb = node * NODE_WORDS;
-    // slab test against the node box (moving primitives have swept boxes)
-    let t0 = ((negX ? nodes[nb + 3] : nodes[nb]) - ox) * ix;
-    let t1 = ((negX ? nodes[nb] : nodes[nb + 3]) - ox) * ix;
-    const ty0 = ((negY ? nodes[nb + 4] : nodes[nb + 1]) - oy) * iy;
-    const ty1 = ((negY ? nodes[nb + 1] : nodes[nb + 4]) - oy) * iy;
-    if (ty0 > t0) t0 = ty0;
-    if (ty1 < t1) t1 = ty1;
-    const tz0 = ((negZ ? nodes[nb + 5] : nodes[nb + 2]) - oz) * iz;
-    const tz1 = ((negZ ? nodes[nb + 2] : nodes[nb + 5]) - oz) * iz;
-    if (tz0 > t0) t0 = tz0;
-    if (tz1 < t1) t1 = tz1;
-    // a small relative tolerance keeps grazing rays from slipping between float32 boxes
-    if (t0 <= t1 * 1.0000001 + 1e-12 && t1 >= 0 && t0 < tmax) {
-      const meta = words[nb + 7];
-      const count = meta >>> 2;
-      if (count === 0) {
-        const axis = meta & 3;
-        const neg = axis === 0 ? negX : axis === 1 ? negY : negZ;
-        const right = words[nb + 6];
-        if (neg) {
-          stack[sp++] = node + 1;
-          node = right;
-        } else {
-          stack[sp++] = right;
-          node = node + 1;
-        }
+    const count = words[nb + 7] >>> 2;
+    if (count === 0) {
+      const left = node + 1;
+      const right = words[nb + 6];
+      const tl = boxEntry(nodes, left * NODE_WORDS, ox, oy, oz, ix, iy, iz, tmax);
+      const tr = boxEntry(nodes, right * NODE_WORDS, ox, oy, oz, ix, iy, iz, tmax);
+      if (tl !== Infinity) {
+        if (tr !== Infinity) {
+          if (tr < tl) {
+            stack[sp] = left;
+            dist[sp++] = tl;
+            node = right;
+          } else {
+            stack[sp] = right;
+            dist[sp++] = tr;
+            node = left;
+          }
+        } else node = left;
         continue;
       }
+      if (tr !== Infinity) {
+        node = right;
+        continue;
+      }
+    } else {
       const first = words[nb + 6];
       for (let i = first; i < first + count; i++) {
         const p = primIdx[i];
         if (p === skip) continue;
-        const t = intersectPrim(s, p, ox, oy, oz, dx, dy, dz, time, tmax, ts);
-        if (t < tmax) {
-          tmax = t;
-          best = p;
-          bu = ts.cu;
-          bv = ts.cv;
-          if (anyHit) {
-            hit.t = t;
-            hit.prim = p;
-            return true;
-          }
+        const ib = p * PRIM_INFO_STRIDE;
+        let t = Infinity;
+        if (info[ib] === PRIM_TRIANGLE && info[ib + 3] < 0) {
+          // static triangle, inlined (Möller & Trumbore 1997, two-sided)
+          const o = p * PRIM_GEOM_STRIDE;
+          const e1x = g[o + 3], e1y = g[o + 4], e1z = g[o + 5];
+          const e2x = g[o + 6], e2y = g[o + 7], e2z = g[o + 8];
+          const pvx = dy * e2z - dz * e2y;
+          const pvy = dz * e2x - dx * e2z;
+          const pvz = dx * e2y - dy * e2x;
+          const det = e1x * pvx + e1y * pvy + e1z * pvz;
+          if (det === 0) continue;
+          const inv = 1 / det;
+          const tx = ox - g[o], ty = oy - g[o + 1], tz = oz - g[o + 2];
+          const u = (tx * pvx + ty * pvy + tz * pvz) * inv;
+          if (u < 0 || u > 1) continue;
+          const qx = ty * e1z - tz * e1y;
+          const qy = tz * e1x - tx * e1z;
+          const qz = tx * e1y - ty * e1x;
+          const v = (dx * qx + dy * qy + dz * qz) * inv;
+          if (v < 0 || u + v > 1) continue;
+          t = (e2x * qx + e2y * qy + e2z * qz) * inv;
+          if (!(t > 0 && t < tmax)) continue;
+          ts.cu = u;
+          ts.cv = v;
+        } else {
+          t = intersectPrim(s, p, ox, oy, oz, dx, dy, dz, time, tmax, ts);
+          if (!(t < tmax)) continue;
+        }
+        tmax = t;
+        best = p;
+        bu = ts.cu;
+        bv = ts.cv;
+        if (anyHit) {
+          hit.t = t;
+          hit.prim = p;
+          return true;
         }
       }
     }
-    if (sp === 0) break;
-    node = stack[--sp];
+    // pop the nearest pending node that can still hold a closer hit
+    let found = false;
+    while (sp > 0) {
+      sp--;
+      if (dist[sp] < tmax) {
+        node = stack[sp];
+        found = true;
+        break;
+      }
+    }
+    if (!found) break;
   }
   if (best < 0) return false;
   hit.t = tmax;
