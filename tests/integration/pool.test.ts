@@ -11,6 +11,8 @@ import { db, dbPool } from "~/services/db.server";
 import { ensureBucket, putObject } from "~/services/storage.server";
 import { renderPasses } from "~/workers/pool.server";
 import { accumulationHash, compileScene, decodeHdr, decodePfm, resolveBeauty, resolveGroup, serializeAccumulation, TRACER_VERSION, validateScene } from "@tracer/index";
+import { getUserByEmail } from "~/models/user.server";
+import { Person, pageText, uniqueEmail } from "../support/person";
 import { client, makeProject, makeScene, makeToken, makeUser, serveApp, startWorker, studioScene, waitForOutput, type Served, type WorkerProc } from "./api-fixtures";
 
 // Long enough for one chunk of the kill test on a busy 2-core machine, short enough to wait for.
@@ -194,5 +196,35 @@ describe("render pool", () => {
     expect(after.chunks!.every((c) => c.status === "cancelled" || c.status === "done")).toBe(true);
     expect(after.accumulationHash).toBeNull();
     expect((await api.get(`/api/v1/renders/${id}/image.png`)).status).toBe(409);
+  });
+
+  it("shows pool progress in the app and queues and cancels from the project's pool page", async () => {
+    const app = { fetch: (path: string, init?: RequestInit) => fetch(served.baseUrl + path, { redirect: "manual", ...init }), routes: [], close: async () => undefined };
+    const person = new Person(app);
+    const email = uniqueEmail("pool-page");
+    expect((await person.signUp({ name: "Ines Pool", email, password: "lamp-corner-0451-harrow" })).status).toBe(302);
+    const user = (await getUserByEmail(email))!;
+    const project = await makeProject(user.id, "Harrow Lane pool page");
+    const { version } = await makeScene(project.id, user.id, ctx.doc);
+    const own = client(served.baseUrl, await makeToken(user.id, "render"));
+    const queued = await own.post("/api/v1/renders", { versionId: version.id, spp: 64, chunkPasses: 4, width: 48, height: 30 });
+    const id = (queued.json as unknown as ApiRender).id;
+
+    const page = await person.get(`/projects/${project.id}/pool`);
+    expect(page.status).toBe(200);
+    expect(page.text).toContain(`data-render-id="${id}"`);
+    expect(page.text).toMatch(/role="progressbar"[^>]*aria-valuemax="64"/);
+
+    const bad = await person.post(`/projects/${project.id}/pool`, { intent: "queue", sceneId: ctx.sceneId, spp: "0" });
+    expect(bad.status).toBe(400);
+    expect(pageText(bad.text)).toContain("must be at least 1");
+
+    const cancel = await person.post(`/projects/${project.id}/pool`, { intent: "cancel", renderId: id });
+    expect(cancel.status).toBe(200);
+    expect(((await own.get(`/api/v1/renders/${id}`)).json as unknown as ApiRender).status).toBe("cancelled");
+
+    const ok = await person.post(`/projects/${project.id}/pool`, { intent: "queue", sceneId: (await own.get(`/api/v1/versions/${version.id}`)).json.sceneId as string, spp: "4", width: "16", height: "10" });
+    expect(ok.status).toBe(200);
+    expect(pageText(ok.text)).toContain("Queued 4 spp");
   });
 });
