@@ -153,6 +153,28 @@ describe("scene workspace", () => {
     await screenshot(page, "workspace-rendered");
   });
 
+  it("false colour, histogram, pixel probe and light meter read the preview", async () => {
+    const { page } = a;
+    await page.getByRole("tab", { name: "Look" }).click();
+    expect(await page.getByTestId("histogram").isVisible()).toBe(true);
+    const pictureMean = await canvasMean(page);
+    await page.getByRole("radio", { name: "Exposure map" }).click();
+    expect(await page.getByTestId("false-colour-legend").innerText()).toContain("middle grey");
+    await expect.poll(() => canvasMean(page)).not.toBeCloseTo(pictureMean, 0);
+    await page.getByRole("radio", { name: "Picture" }).click();
+
+    await page.getByRole("tab", { name: "Measure" }).click();
+    const canvas = page.locator("[data-testid=preview] canvas");
+    const box = (await canvas.boundingBox())!;
+    // The kettle sits in the middle of the frame; its lit top is a little above the centre.
+    await page.mouse.move(box.x + box.width * 0.5, box.y + box.height * 0.42);
+    await expect.poll(() => page.getByTestId("probe").innerText()).toMatch(/Linear RGB[\s\S]*Luminance/);
+    await page.mouse.click(box.x + box.width * 0.5, box.y + box.height * 0.42);
+    await expect.poll(() => page.getByTestId("meter-lux").innerText(), { timeout: 30_000 }).toMatch(/≈ [\d.e+-]+ ± [\d.e+-]+ lux/);
+    expect(await page.getByTestId("meter-reading").innerText()).toMatch(/W\/m²/);
+    expect(await page.getByTestId("light-meter").innerText()).toMatch(/not a lighting-design calculation[\s\S]*local codes[\s\S]*licensed/);
+  });
+
   it("light balance changes the picture without re-rendering and writes back as one undoable edit", async () => {
     const { page } = a;
     await page.getByRole("tab", { name: "Light balance" }).click();
@@ -249,6 +271,8 @@ describe("scene workspace", () => {
 
   it("the JSON editor completes the scene format's fields and explains them on hover", async () => {
     const { page } = a;
+    await page.locator("[data-testid=scene-editor] .view-lines").click();
+    await page.keyboard.press("Control+Home");
     const fov = page.locator("[data-testid=scene-editor] .view-lines span", { hasText: /^"fovY"$/ }).first();
     await fov.hover();
     await expect.poll(() => page.locator(".monaco-hover").first().innerText(), { timeout: 15_000 }).toContain("Full vertical field of view");
