@@ -8,6 +8,8 @@ export type Sent = { status: number; location: string | null; text: string; setC
 
 export class Person {
   cookie = "";
+  /** Set for a pipeline caller: sent as the Authorization header on every request. */
+  tokenHeader = "";
   readonly address: string;
   constructor(
     private readonly app: AppServer,
@@ -19,6 +21,7 @@ export class Person {
   async send(path: string, init: { method?: string; form?: Record<string, string>; headers?: Record<string, string>; body?: BodyInit } = {}): Promise<Sent> {
     const headers: Record<string, string> = { "x-forwarded-for": this.address, "user-agent": "tracewell-tests", ...init.headers };
     if (this.cookie) headers.cookie = this.cookie;
+    if (this.tokenHeader) headers.authorization = this.tokenHeader;
     let body = init.body;
     if (init.form) {
       body = new URLSearchParams(init.form).toString();
