@@ -246,7 +246,7 @@ export default function CompareRenders({ loaderData }: Route.ComponentProps) {
                 </dd>
               </div>
               <div className="rounded bg-raised p-2">
-                <dt className="text-xs text-ink-muted">PSNR (peak {fmt(d.metrics.peak, 3)})</dt>
+                <dt className="text-xs text-ink-muted">PSNR (peak {Number(d.metrics.peak.toPrecision(4))})</dt>
                 <dd className="font-mono" data-testid="metric-psnr">
                   {d.metrics.psnr === null ? "∞ (identical)" : `${d.metrics.psnr.toFixed(2)} dB`}
                 </dd>
