@@ -414,7 +414,11 @@ export function compileScene(scene: Scene, assets: LoadedAssets = new Map()): Co
   const probs = powers.map((pw) =>
     totalPower > 0 ? (1 - UNIFORM_PICK_SHARE) * (Math.max(0, pw) / totalPower) + UNIFORM_PICK_SHARE / candidates : 1 / candidates,
   );
-  for (let li = 0; li < lightCount; li++) lights[li * LIGHT_STRIDE + 20] = probs[li];
+  const lightCdf = new Float64Array(lightCount + 1);
+  for (let li = 0; li < lightCount; li++) {
+    lights[li * LIGHT_STRIDE + 20] = probs[li];
+    lightCdf[li + 1] = lightCdf[li] + probs[li];
+  }
   const envPick = envSampleable ? probs[lightCount] : 0;
 
   const bvh = buildBvh(bounds);
@@ -443,6 +447,7 @@ export function compileScene(scene: Scene, assets: LoadedAssets = new Map()): Co
     meterMaterial,
     lights,
     lightCount,
+    lightCdf,
     envType,
     envParams,
     envGroup: envGroup < 0 ? 0 : envGroup,
@@ -506,7 +511,7 @@ export function transferables(c: CompiledScene): ArrayBuffer[] {
     if (buf instanceof ArrayBuffer && !list.includes(buf)) list.push(buf);
   };
   for (const a of [
-    c.camera, c.primInfo, c.primGeom, c.normals, c.velocities, c.materials, c.lights, c.envParams, c.envMap,
+    c.camera, c.primInfo, c.primGeom, c.normals, c.velocities, c.materials, c.lights, c.lightCdf, c.envParams, c.envMap,
     c.envMarginal, c.envConditional, c.envFunc, c.sceneCenter,
   ]) add(a);
   for (const b of bvhTransferables(c.bvh)) if (!list.includes(b)) list.push(b);

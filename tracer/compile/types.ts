@@ -87,6 +87,8 @@ export type CompiledScene = {
 
   lights: Float64Array;
   lightCount: number;
+  /** cumulative light-choice probabilities: lightCdf[i] = Σ_{j<i} p_j (lightCount + 1 entries; the rest up to 1 is the environment's) */
+  lightCdf: Float64Array;
 
   envType: number;
   /** uniform: radiance 0..2; sky: zenith 0..2, horizon 3..5, ground 6..8; map: scale 0, cos(rotY) 1, sin(rotY) 2 */

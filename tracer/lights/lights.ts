@@ -27,15 +27,23 @@ export class LightSample {
 
 /** Choose a light (or the environment, returned as -2) with the stored probabilities; -1 if nothing to sample. */
 export function pickLight(s: CompiledScene, u: number): number {
-  const L = s.lights;
-  let acc = 0;
-  for (let i = 0; i < s.lightCount; i++) {
-    acc += L[i * LIGHT_STRIDE + 20];
-    if (u < acc) return i;
+  const n = s.lightCount;
+  const cdf = s.lightCdf;
+  if (n > 0 && u < cdf[n]) {
+    // binary search for the last i with cdf[i] ≤ u (scenes may hold up to 1000 lights)
+    let lo = 0;
+    let hi = n - 1;
+    while (lo < hi) {
+      const mid = (lo + hi + 1) >>> 1;
+      if (cdf[mid] <= u) lo = mid;
+      else hi = mid - 1;
+    }
+    return lo;
   }
   if (s.envPick > 0) return -2;
   // rounding left u above the last cumulative value: return the last light with any probability
-  for (let i = s.lightCount - 1; i >= 0; i--) if (L[i * LIGHT_STRIDE + 20] > 0) return i;
+  const L = s.lights;
+  for (let i = n - 1; i >= 0; i--) if (L[i * LIGHT_STRIDE + 20] > 0) return i;
   return -1;
 }
 

@@ -4,7 +4,8 @@ import { measureIrradiance } from "../../../tracer/render/meter";
 import { resolveBeauty, resolveGroup } from "../../../tracer/film/accumulate";
 import { encodeHdr } from "../../../tracer/io/rgbe";
 import { envPdf, envRadiance, sampleEnv } from "../../../tracer/lights/environment";
-import { LightSample } from "../../../tracer/lights/lights";
+import { LightSample, pickLight } from "../../../tracer/lights/lights";
+import { LIGHT_STRIDE } from "../../../tracer/compile/types";
 import { SampleStream } from "../../../tracer/math/rng";
 
 // Configuration (view) factors: a Lambertian emitter of radiance L gives irradiance E = π·L·F and a
@@ -273,5 +274,33 @@ describe("equirectangular environment map", () => {
     const a = Math.PI / 2;
     envRadiance(r, Math.cos(a) * dx + Math.sin(a) * dz, Math.cos(th), -Math.sin(a) * dx + Math.cos(a) * dz, rgb);
     expect(rgb[0]).toBeCloseTo(20, 6);
+  });
+});
+
+describe("choosing a light for next-event estimation", () => {
+  it("picks each light with its stored probability (power-weighted with a uniform share), the environment with the rest", () => {
+    const lights = Array.from({ length: 40 }, (_, i) => ({ id: `p${i}`, type: "point", position: [i, 3, 0], intensity: [i + 1, i + 1, i + 1] }));
+    const c = compiled({
+      image: { width: 1, height: 1 },
+      camera: { position: [0, 0, 5], target: [0, 0, 0], fovY: 30 },
+      render: { spp: 1 },
+      environment: { type: "uniform", radiance: [0.1, 0.1, 0.1] },
+      materials: { m: { type: "diffuse", albedo: [1, 1, 1] } },
+      objects: [],
+      lights: lights as never,
+    });
+    const probs = Array.from({ length: 40 }, (_, i) => c.lights[i * LIGHT_STRIDE + 20]);
+    expect(probs.reduce((a, b) => a + b, 0) + c.envPick).toBeCloseTo(1, 12);
+    // brighter lights are chosen more often
+    expect(probs[39]).toBeGreaterThan(probs[0]);
+    const counts = new Array(41).fill(0);
+    const n = 200000;
+    for (let i = 0; i < n; i++) {
+      const k = pickLight(c, (i + 0.5) / n);
+      counts[k === -2 ? 40 : k]++;
+    }
+    // stratified u: each count is within 1 of n·p
+    for (let i = 0; i < 40; i++) expect(Math.abs(counts[i] - n * probs[i])).toBeLessThanOrEqual(1);
+    expect(Math.abs(counts[40] - n * c.envPick)).toBeLessThanOrEqual(1);
   });
 });
