@@ -83,8 +83,10 @@ function endlessPost(path: string, headers: Record<string, string>, capBytes: nu
         let body = "";
         res.setEncoding("utf8");
         res.on("data", (d: string) => (body += d.slice(0, 2000)));
-        res.on("end", () => resolve({ status: res.statusCode ?? 0, body, sentBytes: sentAtAnswer, answeredEarly: sentAtAnswer < capBytes }));
-        req.destroy();
+        res.on("end", () => {
+          resolve({ status: res.statusCode ?? 0, body, sentBytes: sentAtAnswer, answeredEarly: sentAtAnswer < capBytes });
+          req.destroy();
+        });
       },
     );
     req.on("error", (e) => {
@@ -118,8 +120,10 @@ function liarPost(path: string, headers: Record<string, string>, declared: numbe
         let body = "";
         res.setEncoding("utf8");
         res.on("data", (d: string) => (body += d));
-        res.on("end", () => resolve({ status: res.statusCode ?? 0, body }));
-        req.destroy();
+        res.on("end", () => {
+          resolve({ status: res.statusCode ?? 0, body });
+          req.destroy();
+        });
       },
     );
     req.on("error", reject);
