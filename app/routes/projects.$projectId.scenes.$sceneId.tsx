@@ -1,7 +1,7 @@
 // The scene workspace: JSON editor and forms on one text, a progressive preview rendered in web workers,
 // light balance, exposure tools and measuring, and saving versions with conflict handling.
 import { lazy, Suspense, useEffect, useLayoutEffect, useMemo, useRef, useState } from "react";
-import { Link, useFetcher } from "react-router";
+import { Link, useFetcher, type ShouldRevalidateFunctionArgs } from "react-router";
 import { z } from "zod";
 import { useStore } from "zustand";
 import { useWorkspaceStore, WorkspaceProvider } from "~/components/workspace/context";
@@ -48,6 +48,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
       text: sceneToText(version.scene),
     },
     isHead,
+    /** The ?version= asked for (null = the latest); the editing state is kept per opened address, not per head. */
+    requestedVersionId: requested,
     role: access.role,
     canEdit: access.role !== "viewer" && isHead,
   };
@@ -105,6 +107,12 @@ function overlapOf(a: ReturnType<typeof diffScenes>, b: ReturnType<typeof diffSc
   return [...new Set(b.changes.flatMap((c) => c.fields.map((f) => key(c.label, f.field))).filter((k) => left.has(k)))];
 }
 
+/** A save answers through the store (new base, conflict view); reloading this page's data would only cost time. */
+export function shouldRevalidate({ formMethod, currentUrl, nextUrl, defaultShouldRevalidate }: ShouldRevalidateFunctionArgs) {
+  if (formMethod === "POST" && currentUrl.pathname === nextUrl.pathname) return false;
+  return defaultShouldRevalidate;
+}
+
 function ClientOnly({ children, fallback }: { children: () => React.ReactNode; fallback: React.ReactNode }) {
   const [mounted, setMounted] = useState(false);
   useEffect(() => setMounted(true), []);
@@ -129,7 +137,7 @@ export default function Workspace({ loaderData }: Route.ComponentProps) {
         { validate: validateScene },
       ),
     // eslint-disable-next-line react-hooks/exhaustive-deps
-    [scene.id, version.id],
+    [scene.id, loaderData.requestedVersionId],
   );
   const [renderer, setRenderer] = useState<PreviewRenderer | null>(null);
   const [draftNotice, setDraftNotice] = useState<string | null>(null);

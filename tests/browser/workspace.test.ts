@@ -202,6 +202,7 @@ describe("scene workspace", () => {
     await page.getByLabel("What changed?").fill("Key up a stop via the light balance");
     await page.getByRole("button", { name: "Save", exact: true }).click();
     await expect.poll(() => page.getByTestId("base-version").innerText()).toBe("from version 2");
+    expect(await page.getByRole("button", { name: "Undo" }).isDisabled()).toBe(false); // the history survives a save
     const head = await getHead(sceneId);
     expect(head?.number).toBe(2);
     expect(head?.message).toBe("Key up a stop via the light balance");
