@@ -30,7 +30,7 @@ const scenesDir = path.resolve(here, "../../scenes");
 export type BenchOptions = { tiny: boolean; workers: number; skipBig: boolean; log: (s: string) => void };
 
 export type SceneFigures = { scene: string; width: number; height: number; passes: number; samplesPerSecond: number; primitives: number };
-export type ScalingRow = { workers: number; samplesPerSecond: number; speedup: number; efficiency: number };
+export type ScalingRow = { workers: number; samplesPerSecond: number; speedup: number; efficiency: number; coresUsed: number };
 
 export type BenchFigures = {
   node: string;
@@ -174,11 +174,17 @@ export async function runBench(opts: BenchOptions): Promise<BenchFigures> {
         await pool.loadScene(c);
         // Warm every worker's JIT on the same scene before timing.
         await renderProgressive(c, { pool, passes: 1, passesPerUnit: 1, tileSize: 32 }).done;
+        const c0 = process.cpuUsage();
+        const t0 = performance.now();
         const r = await renderProgressive(c, { pool, passes: scalePasses, passesPerUnit: 1, tileSize: 32 }).done;
+        const cpu = process.cpuUsage(c0);
+        // Cores' worth of CPU the process actually got: on a busy machine the scheduler may give a
+        // whole process one share however many threads it runs, which caps any speedup.
+        const coresUsed = (cpu.user + cpu.system) / 1000 / (performance.now() - t0);
         const base = rows[0]?.samplesPerSecond ?? r.samplesPerSecond;
-        const row = { workers: k, samplesPerSecond: r.samplesPerSecond, speedup: r.samplesPerSecond / base, efficiency: r.samplesPerSecond / base / k };
+        const row = { workers: k, samplesPerSecond: r.samplesPerSecond, speedup: r.samplesPerSecond / base, efficiency: r.samplesPerSecond / base / k, coresUsed };
         rows.push(row);
-        log(`  ${String(k).padStart(2)} worker${k > 1 ? "s" : " "}  ${(row.samplesPerSecond / 1000).toFixed(1).padStart(7)} k samples/s  speedup ×${row.speedup.toFixed(2)}  efficiency ${(row.efficiency * 100).toFixed(0)}%`);
+        log(`  ${String(k).padStart(2)} worker${k > 1 ? "s" : " "}  ${(row.samplesPerSecond / 1000).toFixed(1).padStart(7)} k samples/s  speedup ×${row.speedup.toFixed(2)}  efficiency ${(row.efficiency * 100).toFixed(0)}%  CPU obtained ${coresUsed.toFixed(2)} cores`);
       } finally {
         await pool.terminate();
       }
