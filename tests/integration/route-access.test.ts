@@ -18,7 +18,7 @@
 // Refused means: anonymous → sign-in redirect (pages) or 401 (API, or any request with a token); everyone else
 // → 404, and the very same answer as for an id that does not exist (checked against made-up ids).
 // Run:  bin/with-test-env npx vitest run tests/integration/route-access.test.ts
-//       (BASE_URL=http://localhost:3111 sends the requests to a served build instead of the in-process app.)
+//       (TRACEWELL_URL=http://localhost:3111 sends the requests to a served build instead of the in-process app.)
 import { createHash, randomBytes, randomUUID } from "node:crypto";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { assets, memberships } from "~/db/schema";

@@ -1,6 +1,6 @@
 // Runs the whole app in-process for integration tests: Vite compiles the current sources (no production build
 // needed) and React Router's request handler answers real Request objects through every loader and action.
-// With BASE_URL set, requests go over HTTP to that server instead (a served build, see bin/serve-test).
+// With TRACEWELL_URL set, requests go over HTTP to that server instead (a served build, see bin/serve-test).
 import type { ServerBuild } from "react-router";
 
 export type AppRoute = { id: string; file: string; // file = route id (the module path without extension)
@@ -35,8 +35,8 @@ export async function startApp(): Promise<AppServer> {
   const vite = await createServer({ server: { middlewareMode: true, hmr: false, ws: false }, appType: "custom", logLevel: "error" });
   const build = (await vite.ssrLoadModule("virtual:react-router/server-build")) as ServerBuild;
   const handler = createRequestHandler(build, "development");
-  // Vitest itself sets BASE_URL="/" (Vite's public base); only an absolute http(s) URL names a served app.
-  const base = /^https?:\/\//.test(process.env.BASE_URL ?? "") ? process.env.BASE_URL : undefined;
+  // TRACEWELL_URL names a served app (vitest itself sets BASE_URL to "/", so that name cannot be used).
+  const base = /^https?:\/\//.test(process.env.TRACEWELL_URL ?? "") ? process.env.TRACEWELL_URL : undefined;
   const origin = base ?? process.env.APP_URL ?? "http://localhost:3100";
   return {
     routes: flattenRoutes(build),
