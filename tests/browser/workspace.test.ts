@@ -153,6 +153,30 @@ describe("scene workspace", () => {
     await screenshot(page, "workspace-rendered");
   });
 
+  it("stops by itself at a noise target, and a quarter resolution renders a quarter-size image", async () => {
+    const { page } = a;
+    await page.getByLabel("Stop when the noise falls to").selectOption({ label: "10%" });
+    await page.locator("[data-testid=render-form] summary").click();
+    await page.getByLabel("Render: Samples per pixel").fill("4096");
+    await expect
+      .poll(() => page.getByTestId("progress").innerText(), { timeout: 120_000 })
+      .toMatch(/Reached the noise target[\s\S]*\/\s*4096\s*spp/);
+    const done = await sppDone(page);
+    expect(done).toBeGreaterThan(16);
+    expect(done).toBeLessThan(4096);
+    const noise = Number((await page.getByTestId("noise").innerText()).replace("%", ""));
+    expect(noise).toBeLessThanOrEqual(10);
+
+    await page.getByRole("radio", { name: "¼" }).click();
+    await expect.poll(() => page.getByTestId("progress").innerText(), { timeout: 60_000 }).toMatch(/12×9 px/);
+    await page.getByRole("radio", { name: "Full" }).click();
+    await page.getByLabel("Stop when the noise falls to").selectOption({ label: "Off" });
+    await page.locator("body").click({ position: { x: 5, y: 5 } });
+    await page.keyboard.press("Control+z"); // back to 16 spp
+    await expect.poll(() => page.getByLabel("Render: Samples per pixel").inputValue()).toBe("16");
+    await expect.poll(() => page.getByTestId("progress").innerText(), { timeout: 120_000 }).toMatch(/Reached the target[\s\S]*16\s*\/\s*16\s*spp/);
+  });
+
   it("false colour, histogram, pixel probe and light meter read the preview", async () => {
     const { page } = a;
     await page.getByRole("tab", { name: "Look" }).click();
