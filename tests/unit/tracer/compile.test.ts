@@ -2,13 +2,14 @@ import { describe, expect, it } from "vitest";
 import { compileScene, transferables, CompileError } from "../../../tracer/compile/compile";
 import { renderUnit } from "../../../tracer/render/unit";
 import { sceneOf } from "./render-helpers";
+import type { SceneInput } from "../../../tracer/scene/schema";
 
-const base = {
+const base: Pick<SceneInput, "image" | "camera" | "render" | "materials"> = {
   image: { width: 8, height: 6 },
   camera: { position: [0, 1, 4], target: [0, 0, 0], fovY: 40 },
   render: { spp: 2 },
   materials: { m: { type: "diffuse", albedo: [0.5, 0.5, 0.5] } },
-} as const;
+};
 
 describe("compileScene", () => {
   it("names the field when an asset is missing or malformed, and loses nothing of the message", () => {
