@@ -9,7 +9,7 @@
  * are written as float32, exact up to 2^24 triangles (far above the scene limits).
  */
 import { buildBvhConsuming, type BuildBvhOptions } from "./build";
-import { closestHit, createTraversalScratch, type TriangleBvh } from "./traverse";
+import { closestHitBatch, createTraversalScratch, type TriangleBvh } from "./traverse";
 
 export type { TriangleBvh } from "./traverse";
 
@@ -69,12 +69,7 @@ export function intersectRays(mesh: TriangleBvh, rays: Float32Array, out: Float3
   if (rays.length % 8 !== 0) throw new Error(`intersectRays: rays length ${rays.length} is not a multiple of 8`);
   const n = rays.length / 8;
   if (out.length < n * 4) throw new Error(`intersectRays: out holds ${out.length} floats but ${n} rays need ${n * 4}`);
-  let hits = 0;
-  for (let i = 0; i < n; i++) {
-    const r = i * 8;
-    if (closestHit(mesh, rays[r], rays[r + 1], rays[r + 2], rays[r + 3], rays[r + 4], rays[r + 5], rays[r + 6], rays[r + 7], out, i * 4, scratch)) hits++;
-  }
-  return hits;
+  return closestHitBatch(mesh, rays, 0, n, out, scratch);
 }
 
 /** Bytes held by a triangle BVH (nodes, leaf order map, triangle data). */
