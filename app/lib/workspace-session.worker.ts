@@ -64,7 +64,8 @@ type Run = {
   noiseTarget: number | null;
   paused: boolean;
   cancelled: boolean;
-  resume: (() => void) | null;
+  /** Pool lanes parked while paused (one per lane: every one must wake on resume or cancel). */
+  waiters: (() => void)[];
   started: number;
   pausedAt: number;
   pausedTotal: number;
@@ -125,13 +126,20 @@ function batchSize(done: number): number {
   return Math.min(16, 1 << Math.floor(Math.log2(done)));
 }
 
+function wake(run: Run): void {
+  const ws = run.waiters.splice(0);
+  for (const w of ws) w();
+}
+
+function cancelRun(run: Run): void {
+  run.cancelled = true;
+  wake(run);
+}
+
 const api = {
   async start(sceneJson: unknown, opts: StartOptions, onFrame: (f: SessionFrame) => void): Promise<void> {
     const id = ++runCounter;
-    if (current) {
-      current.cancelled = true;
-      current.resume?.();
-    }
+    if (current) cancelRun(current);
     const workers = Math.max(1, (navigator.hardwareConcurrency || 2) - 1);
     const base: SessionFrame = {
       runId: id, status: "compiling", width: 0, height: 0, groupNames: [], groups: null, sppDone: 0, sppTarget: 0,
@@ -162,7 +170,7 @@ const api = {
     const run: Run = {
       id, compiled, tiles, acc: createAccumulation(compiled.width, compiled.height, compiled.groupNames.length),
       tilePasses: new Int32Array(tiles.length), target: compiled.spp, noiseTarget: opts.noiseTarget, paused: false,
-      cancelled: false, resume: null, started: performance.now(), pausedAt: 0, pausedTotal: 0, samples: 0, dirty: false, stopReason: null,
+      cancelled: false, waiters: [], started: performance.now(), pausedAt: 0, pausedTotal: 0, samples: 0, dirty: false, stopReason: null,
     };
     current = run;
 
@@ -191,7 +199,7 @@ const api = {
     let roundEnd = batchSize(0);
     const source = {
       next: async (): Promise<RenderUnit | null> => {
-        while (run.paused && !run.cancelled) await new Promise<void>((r) => (run.resume = r));
+        while (run.paused && !run.cancelled) await new Promise<void>((r) => run.waiters.push(r));
         if (run.cancelled || run.stopReason) return null;
         if (cursor >= tiles.length) {
           if (roundEnd >= run.target) return null;
@@ -246,16 +254,11 @@ const api = {
     if (!r || !r.paused) return;
     r.paused = false;
     r.pausedTotal += performance.now() - r.pausedAt;
-    const go = r.resume;
-    r.resume = null;
-    go?.();
+    wake(r);
   },
 
   stop(): void {
-    if (current) {
-      current.cancelled = true;
-      current.resume?.();
-    }
+    if (current) cancelRun(current);
     runCounter++;
   },
 
