@@ -5,6 +5,7 @@ import { db } from "~/services/db.server";
 
 export type ActivityKind =
   | "project.created"
+  | "project.renamed"
   | "member.invited"
   | "invitation.revoked"
   | "member.joined"

@@ -23,6 +23,8 @@ function describe(e: ActivityEntry, names: Map<string, string>): string {
   switch (e.kind) {
     case "project.created":
       return `created the project "${str(d.name)}"`;
+    case "project.renamed":
+      return `renamed the project to "${str(d.name)}"`;
     case "member.invited":
       return `invited ${str(d.email)} as ${str(d.role)}`;
     case "invitation.revoked":

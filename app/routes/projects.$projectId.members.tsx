@@ -9,7 +9,8 @@ import { fieldErrors, formObject } from "~/lib/form";
 import { ROLE_DESCRIPTIONS, ROLES } from "~/lib/roles";
 import { createInvitation, listPendingInvitations, revokeInvitation } from "~/models/invitation.server";
 import { changeRole, listMembers, removeMember } from "~/models/membership.server";
-import { getProject } from "~/models/project.server";
+import { logActivity } from "~/models/activity.server";
+import { deleteProject, getProject, renameProject } from "~/models/project.server";
 import { sendInvitationMail } from "~/services/account-mail.server";
 import { requireAccess } from "~/services/permissions.server";
 import type { Route } from "./+types/projects.$projectId.members";
@@ -23,7 +24,20 @@ const MembersActionSchema = z.discriminatedUnion("intent", [
   z.object({ intent: z.literal("remove"), userId: z.uuid("Member is not valid") }),
   z.object({ intent: z.literal("revoke-invitation"), invitationId: z.uuid("Invitation is not valid") }),
   z.object({ intent: z.literal("leave") }),
+  z.object({
+    intent: z.literal("rename"),
+    name: z.string().trim().min(1, "Name is required").max(80, "Name must be at most 80 characters"),
+    description: z.string().trim().max(500, "Description must be at most 500 characters").default(""),
+  }),
+  z.object({ intent: z.literal("delete-project"), confirmName: z.string().trim().min(1, "Type the project's name to confirm") }),
 ], { error: "Unknown action" });
+
+// Which ability each action needs; anything unknown needs the most, so a typo never widens access.
+function abilityFor(intent: string | undefined): "view" | "manage" | "delete" {
+  if (intent === "leave") return "view";
+  if (intent === "delete-project") return "delete";
+  return "manage";
+}
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   const { actor, role } = await requireAccess(request, { projectId: params.projectId }, "view");
@@ -31,7 +45,9 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     listMembers(params.projectId),
     role === "owner" ? listPendingInvitations(params.projectId) : Promise.resolve([]),
   ]);
+  const project = await getProject(params.projectId);
   return {
+    project: { name: project?.name ?? "", description: project?.description ?? "" },
     me: actor.user.id,
     role,
     members: members.map((m) => ({ ...m, joinedAt: m.joinedAt.toISOString() })),
@@ -45,7 +61,7 @@ export async function action({ request, params }: Route.ActionArgs) {
   const projectId = params.projectId;
   const raw = formObject(await request.formData());
   // Leaving needs only membership; everything else is an owner's job. Checked before the form is read for meaning.
-  const access = await requireAccess(request, { projectId }, raw.intent === "leave" ? "view" : "manage");
+  const access = await requireAccess(request, { projectId }, abilityFor(raw.intent));
   const me = access.actor.user;
   const parsed = MembersActionSchema.safeParse(raw);
   if (!parsed.success) return data({ ok: false as const, intent: raw.intent ?? "", errors: fieldErrors(parsed.error), values: raw }, { status: 400 });
@@ -91,6 +107,20 @@ export async function action({ request, params }: Route.ActionArgs) {
       if (!done) return data({ ok: false as const, intent: input.intent, errors: { form: "That invitation is no longer open." }, values: raw }, { status: 400 });
       return data({ ok: true as const, intent: input.intent, message: "Invitation withdrawn." });
     }
+    case "rename": {
+      await renameProject(projectId, input.name, input.description);
+      await logActivity(projectId, me.id, "project.renamed", { name: input.name });
+      return data({ ok: true as const, intent: input.intent, message: "Project details saved." });
+    }
+    case "delete-project": {
+      const project = await getProject(projectId);
+      if (!project) throw data("Not found", { status: 404 });
+      if (input.confirmName !== project.name) {
+        return data({ ok: false as const, intent: input.intent, errors: { confirmName: "The name does not match; nothing was deleted." }, values: raw }, { status: 400 });
+      }
+      await deleteProject(projectId);
+      return redirect("/projects");
+    }
     case "leave": {
       const result = await removeMember(projectId, me.id, me.id);
       if (!result.ok) {
@@ -102,7 +132,7 @@ export async function action({ request, params }: Route.ActionArgs) {
 }
 
 export default function Members({ loaderData, actionData }: Route.ComponentProps) {
-  const { members, invitations, role, me } = loaderData;
+  const { members, invitations, role, me, project } = loaderData;
   const busy = useNavigation().state === "submitting";
   const isOwner = role === "owner";
   const errors: Record<string, string | undefined> = actionData && !actionData.ok ? actionData.errors : {};
@@ -228,6 +258,41 @@ export default function Members({ loaderData, actionData }: Route.ComponentProps
               </Table>
             </div>
           ) : null}
+        </Panel>
+      ) : null}
+
+      {isOwner ? (
+        <Panel title="Project">
+          <div className="grid gap-6 md:grid-cols-2">
+            <Form method="post" className="flex flex-col gap-3" noValidate>
+              <input type="hidden" name="intent" value="rename" />
+              <Field label="Name" error={errors.name}>
+                {(p) => <Input {...p} name="name" defaultValue={project.name} />}
+              </Field>
+              <Field label="Description" error={errors.description}>
+                {(p) => <Input {...p} name="description" defaultValue={project.description} />}
+              </Field>
+              <div>
+                <Button type="submit" disabled={busy}>
+                  Save details
+                </Button>
+              </div>
+            </Form>
+            <Form method="post" className="flex flex-col gap-3" noValidate>
+              <input type="hidden" name="intent" value="delete-project" />
+              <p className="text-sm text-ink-muted">
+                Deleting removes every scene, version, render, asset and share link of this project for everyone. It cannot be undone.
+              </p>
+              <Field label={`Type "${project.name}" to confirm`} error={errors.confirmName}>
+                {(p) => <Input {...p} name="confirmName" autoComplete="off" />}
+              </Field>
+              <div>
+                <Button type="submit" tone="danger" disabled={busy}>
+                  Delete project
+                </Button>
+              </div>
+            </Form>
+          </div>
         </Panel>
       ) : null}
 

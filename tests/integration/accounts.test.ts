@@ -302,6 +302,21 @@ describe("projects, invitations and roles", () => {
     expect(kinds).toEqual(expect.arrayContaining(["member.role_changed", "member.left"]));
   });
 
+  it("only an owner deletes a project, and only after typing its name", async () => {
+    const { person: owner } = await newAccount("owner");
+    const projectId = await createProject(owner, "Lamp shade drafts");
+    const { person: editor, email: editorEmail } = await newAccount("editor");
+    await owner.post(`/projects/${projectId}/members`, { intent: "invite", email: editorEmail, role: "editor" });
+    await editor.post(new URL(firstLink(await waitForMail(editorEmail, /Lamp shade drafts/), "/invitations/")).pathname, { intent: "accept" });
+    expect((await editor.post(`/projects/${projectId}/members`, { intent: "delete-project", confirmName: "Lamp shade drafts" })).status).toBe(404);
+    const typo = await owner.post(`/projects/${projectId}/members`, { intent: "delete-project", confirmName: "Lamp shade draft" });
+    expect(typo.status).toBe(400);
+    expect(pageText(typo.text)).toContain("The name does not match; nothing was deleted.");
+    expect((await owner.post(`/projects/${projectId}/members`, { intent: "delete-project", confirmName: "Lamp shade drafts" })).location).toBe("/projects");
+    expect((await owner.get(`/projects/${projectId}`)).status).toBe(404);
+    expect((await editor.get(`/projects/${projectId}`)).status).toBe(404);
+  });
+
   it("validates a new project's name by field", async () => {
     const { person } = await newAccount("maker");
     const res = await person.post("/projects?index", { name: "  ", description: "" });

@@ -114,6 +114,10 @@ const ACCESS: Record<string, Probe[] | "layout"> = {
     { method: "POST", url: PROJECT_VIEW("/members"), form: () => ({ intent: "invite", email: "not an address", role: "viewer" }), allow: "manage" },
     // A no-op role change (viewer stays viewer): allowed for owners, changes nothing.
     { method: "POST", url: PROJECT_VIEW("/members"), form: (f) => ({ intent: "change-role", userId: f.memberUserId, role: "viewer" }), allow: "manage" },
+    { method: "POST", url: PROJECT_VIEW("/members"), form: () => ({ intent: "rename", name: "" }), allow: "manage" },
+    // A wrong confirmation name: the owner gets a 400 and nothing is deleted.
+    { method: "POST", url: PROJECT_VIEW("/members"), form: () => ({ intent: "delete-project", confirmName: "not the name" }), allow: "delete" },
+    { method: "POST", url: PROJECT_VIEW("/members"), form: () => ({ intent: "no-such-intent" }), allow: "manage" },
   ],
   "routes/projects.$projectId.activity": [{ url: PROJECT_VIEW("/activity"), allow: "manage" }],
   "routes/projects.$projectId.scenes.$sceneId": [
