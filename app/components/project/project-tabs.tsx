@@ -8,6 +8,7 @@ type Tab = { to: string; label: string; end?: boolean; ownersOnly?: boolean };
 const TABS: Tab[] = [
   { to: "", label: "Scenes", end: true },
   { to: "renders", label: "Renders" },
+  { to: "pool", label: "Render pool" },
   { to: "assets", label: "Assets" },
   { to: "sharing", label: "Sharing" },
   { to: "members", label: "Members" },
