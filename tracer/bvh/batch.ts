@@ -24,7 +24,9 @@ export function buildTriangleBvh(positions: Float32Array, indices: Uint32Array, 
   }
   const bounds = new Float32Array(triCount * 6);
   triangleBounds(positions, indices, bounds);
-  const bvh = buildBvhConsuming(bounds, options);
+  // Leaves of up to ~4 triangles: measured as fast as the default tree for closest-hit rays on the
+  // bunny meshes while halving the node count (less memory, faster builds).
+  const bvh = buildBvhConsuming(bounds, { traversalCost: 4, ...options });
   const tris = new Float32Array(triCount * 9);
   gatherTriangles(positions, indices, bvh.primIndices, tris);
   return { bvh, tris, triCount };
