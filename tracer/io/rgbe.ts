@@ -6,6 +6,7 @@
  * value = byte · 2^(E − 136) (no +0.5), so values exactly representable in RGBE round-trip exactly.
  */
 import { ImageFormatError, type FloatImage } from "./image";
+import { LIMITS } from "../scene/limits";
 
 const FORMAT = "Radiance .hdr";
 const MIN_RLE_WIDTH = 8;
@@ -195,8 +196,23 @@ export function readHdrSize(bytes: Uint8Array): { width: number; height: number 
 export function decodeHdr(bytes: Uint8Array, opts: { maxPixels?: number } = {}): FloatImage {
   const hdr = readHeader(bytes);
   const { width: w, height: h } = hdr;
-  if (opts.maxPixels !== undefined && w * h > opts.maxPixels) {
-    throw new ImageFormatError(FORMAT, hdr.dataStart, `image is ${w}×${h}, more than the ${opts.maxPixels}-pixel limit`);
+  // The header is untrusted: check the size against the limit and against the bytes actually present
+  // before allocating anything sized by it.
+  const maxPixels = opts.maxPixels ?? LIMITS.maxMapPixels;
+  if (w * h > maxPixels) {
+    throw new ImageFormatError(FORMAT, hdr.dataStart, `image is ${w}×${h}, more than the ${maxPixels}-pixel limit`);
+  }
+  // Fewest bytes that can encode the image: new-style RLE packs a run of up to 127 equal bytes into 2 bytes
+  // per channel after a 4-byte scanline header; widths outside [8, 32767] must be stored flat (4 bytes a pixel).
+  const rleWidth = w >= 8 && w <= 0x7fff;
+  const minBytes = rleWidth ? h * (4 + 4 * 2 * Math.ceil(w / 127)) : w * h * 4;
+  // Small images skip this and get the scanline decoder's more precise message about where the data breaks.
+  if (w * h > 65536 && bytes.length - hdr.dataStart < minBytes) {
+    throw new ImageFormatError(
+      FORMAT,
+      bytes.length,
+      `file ends after ${bytes.length - hdr.dataStart} bytes of pixel data; a ${w}×${h} image needs at least ${minBytes}`,
+    );
   }
   const data = new Float32Array(w * h * 3);
   const line = new Uint8Array(w * 4);
