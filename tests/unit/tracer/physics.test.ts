@@ -43,6 +43,38 @@ describe("Fresnel reflection seen through the renderer", () => {
   });
 });
 
+describe("looking out from inside glass", () => {
+  // A camera 1 cm under the top face of a deep, weakly absorbing glass block (n = 1.5) looks up through the
+  // face at θ inside the glass, under a uniform sky L = 1. Below the critical angle it sees the sky through
+  // the interface: T(θ) from the exact Fresnel equations (Hecht, "Optics"), radiance scaled by (n_i/n_t)² =
+  // 2.25 on crossing (REFERENCE_CHECKS item 1, [M] standard radiometry) and Beer–Lambert exp(−σd) for the
+  // 1 cm path; the reflected part travels 50 m through the absorber and vanishes. Above the critical angle
+  // 41.810315° there is total internal reflection and the pixel is black.
+  const view = (thetaDeg: number) => {
+    const t = (thetaDeg * Math.PI) / 180;
+    const depth = 0.01;
+    return compiled({
+      image: { width: 3, height: 3 },
+      camera: { position: [0, -depth, 0], target: [Math.sin(t), -depth + Math.cos(t), 0], fovY: 1 },
+      render: { spp: 256, seed: thetaDeg },
+      environment: { type: "uniform", radiance: [1, 1, 1] },
+      materials: { g: { type: "glass", ior: 1.5, absorption: [1, 1, 1] } },
+      objects: [{ id: "block", shape: { type: "box", min: [-50, -50, -50], max: [50, 0, 50] }, material: "g" }],
+    });
+  };
+  it("30° inside: 2.25 · T · exp(−σd) with T = 1 − 0.055190", () => {
+    const t = (30 * Math.PI) / 180;
+    const expected = 2.25 * (1 - 0.05519) * Math.exp(-0.01 / Math.cos(t));
+    expect(1 - fresnelDielectric(-Math.cos(t), 1.5)).toBeCloseTo(1 - 0.05519, 5);
+    const s = regionStats(renderAll(view(30)), 0, 0, 3, 3);
+    expect(Math.abs(s.mean - expected)).toBeLessThan(4 * s.se + 3e-3);
+  });
+  it("45° inside is beyond the critical angle: total internal reflection, the sky is not seen", () => {
+    const s = regionStats(renderAll(view(45)), 0, 0, 3, 3);
+    expect(s.mean).toBeLessThan(1e-6);
+  });
+});
+
 describe("Monte Carlo error falls as 1/√N", () => {
   // Central limit theorem: the standard error of an N-sample mean is σ/√N, so log RMSE against log N has
   // slope −1/2 (Mitchell, SIGGRAPH 96, for unstratified dimensions; REFERENCE_CHECKS item 7).
