@@ -177,6 +177,24 @@ describe("scene workspace", () => {
     await expect.poll(() => page.getByTestId("progress").innerText(), { timeout: 120_000 }).toMatch(/Reached the target[\s\S]*16\s*\/\s*16\s*spp/);
   });
 
+  it("pauses and resumes the accumulation", async () => {
+    const { page } = a;
+    await page.getByLabel("Render: Samples per pixel").fill("4096");
+    await expect.poll(() => sppDone(page), { timeout: 60_000 }).toBeGreaterThanOrEqual(8);
+    await page.getByRole("button", { name: "Pause" }).click();
+    await expect.poll(() => page.getByTestId("progress-status").innerText()).toBe("Paused");
+    await page.waitForTimeout(1500); // units already in flight may still land
+    const held = await sppDone(page);
+    await page.waitForTimeout(1500);
+    expect(await sppDone(page)).toBe(held);
+    await page.getByRole("button", { name: "Resume" }).click();
+    await expect.poll(() => sppDone(page), { timeout: 60_000 }).toBeGreaterThan(held);
+    await page.locator("body").click({ position: { x: 5, y: 5 } });
+    await page.keyboard.press("Control+z"); // back to 16 spp
+    await expect.poll(() => page.getByLabel("Render: Samples per pixel").inputValue()).toBe("16");
+    await expect.poll(() => page.getByTestId("progress").innerText(), { timeout: 120_000 }).toMatch(/Reached the target[\s\S]*16\s*\/\s*16\s*spp/);
+  });
+
   it("false colour, histogram, pixel probe and light meter read the preview", async () => {
     const { page } = a;
     await page.getByRole("tab", { name: "Look" }).click();
