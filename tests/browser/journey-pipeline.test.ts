@@ -64,7 +64,7 @@ describe("journey: a pipeline renders through the API", () => {
     expect(r.sppDone).toBe(8);
     expect(r.accumulationHash).toBeTruthy();
 
-    const png = await fetch(new URL(`/api/v1/renders/${queued.id}/png`, BASE_URL), { headers });
+    const png = await fetch(new URL(`/api/v1/renders/${queued.id}/image.png`, BASE_URL), { headers });
     expect(png.status).toBe(200);
     expect(png.headers.get("content-type")).toMatch(/image\/png/);
     const image = PNG.sync.read(Buffer.from(await png.arrayBuffer()));
