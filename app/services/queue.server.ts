@@ -11,6 +11,19 @@ import { z } from "zod";
 export const CHUNK_QUEUE = "render-chunk";
 export const MERGE_QUEUE = "render-merge";
 
+/**
+ * A studio may run several pools on one database (say, the farm and a test bench): RENDER_POOL names the
+ * pool a server queues to and a worker takes from. Unset, everyone shares the default pool.
+ */
+export const PoolNameSchema = z
+  .string()
+  .regex(/^[a-z0-9][a-z0-9-]{0,39}$/, "must be 1–40 lower-case letters, digits or dashes")
+  .optional();
+
+export function queueNames(pool: string | undefined) {
+  return pool ? { chunk: `${CHUNK_QUEUE}-${pool}`, merge: `${MERGE_QUEUE}-${pool}` } : { chunk: CHUNK_QUEUE, merge: MERGE_QUEUE };
+}
+
 export const ChunkJobSchema = z.object({ renderId: z.uuid(), index: z.number().int().min(0) });
 export const MergeJobSchema = z.object({ renderId: z.uuid() });
 export type ChunkJob = z.infer<typeof ChunkJobSchema>;
@@ -20,12 +33,14 @@ const QueueEnvSchema = z.object({
   // Longest a chunk may stay claimed before another worker takes it over; must exceed one chunk's render time.
   RENDER_CHUNK_EXPIRE_SECONDS: z.coerce.number().int().min(1).max(82_800).default(900),
   RENDER_CHUNK_RETRY_LIMIT: z.coerce.number().int().min(0).max(100).default(5),
+  RENDER_POOL: PoolNameSchema,
 });
 
 export function queueSettings(source: Record<string, string | undefined> = process.env) {
   return QueueEnvSchema.parse({
     RENDER_CHUNK_EXPIRE_SECONDS: source.RENDER_CHUNK_EXPIRE_SECONDS || undefined,
     RENDER_CHUNK_RETRY_LIMIT: source.RENDER_CHUNK_RETRY_LIMIT || undefined,
+    RENDER_POOL: source.RENDER_POOL || undefined,
   });
 }
 
@@ -47,16 +62,17 @@ export async function startBoss(databaseUrl: string, opts: BossOptions = {}): Pr
   });
   boss.on("error", (err: Error) => console.error("pg-boss:", err.message));
   await boss.start();
-  await boss.createQueue(CHUNK_QUEUE, { name: CHUNK_QUEUE, policy: "standard" });
-  await boss.createQueue(MERGE_QUEUE, { name: MERGE_QUEUE, policy: "standard" });
+  const names = queueNames(queueSettings().RENDER_POOL);
+  await boss.createQueue(names.chunk, { name: names.chunk, policy: "standard" });
+  await boss.createQueue(names.merge, { name: names.merge, policy: "standard" });
   return boss;
 }
 
 export async function enqueueChunks(boss: PgBoss, renderId: string, indices: readonly number[]): Promise<void> {
-  const { RENDER_CHUNK_EXPIRE_SECONDS, RENDER_CHUNK_RETRY_LIMIT } = queueSettings();
+  const { RENDER_CHUNK_EXPIRE_SECONDS, RENDER_CHUNK_RETRY_LIMIT, RENDER_POOL } = queueSettings();
   await boss.insert(
     indices.map((index) => ({
-      name: CHUNK_QUEUE,
+      name: queueNames(RENDER_POOL).chunk,
       data: { renderId, index } satisfies ChunkJob,
       retryLimit: RENDER_CHUNK_RETRY_LIMIT,
       retryDelay: 1,
@@ -66,8 +82,8 @@ export async function enqueueChunks(boss: PgBoss, renderId: string, indices: rea
 }
 
 export async function enqueueMerge(boss: PgBoss, renderId: string): Promise<void> {
-  const { RENDER_CHUNK_EXPIRE_SECONDS, RENDER_CHUNK_RETRY_LIMIT } = queueSettings();
-  await boss.send(MERGE_QUEUE, { renderId } satisfies MergeJob, {
+  const { RENDER_CHUNK_EXPIRE_SECONDS, RENDER_CHUNK_RETRY_LIMIT, RENDER_POOL } = queueSettings();
+  await boss.send(queueNames(RENDER_POOL).merge, { renderId } satisfies MergeJob, {
     retryLimit: RENDER_CHUNK_RETRY_LIMIT,
     retryDelay: 1,
     expireInSeconds: RENDER_CHUNK_EXPIRE_SECONDS,

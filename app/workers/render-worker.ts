@@ -7,7 +7,7 @@ import { z } from "zod";
 import { failPoolRender, releaseChunk } from "~/models/render-job.server";
 import { createDatabase } from "~/services/db.server";
 import { EnvSchema } from "~/services/env.server";
-import { CHUNK_QUEUE, ChunkJobSchema, MERGE_QUEUE, MergeJobSchema, enqueueMerge, startBoss } from "~/services/queue.server";
+import { ChunkJobSchema, MergeJobSchema, PoolNameSchema, enqueueMerge, queueNames, startBoss } from "~/services/queue.server";
 import { PermanentJobError, mergeRender, runChunk, type ObjectStore, type PoolDeps } from "./pool.server";
 
 const WorkerEnvSchema = EnvSchema.pick({
@@ -23,6 +23,7 @@ const WorkerEnvSchema = EnvSchema.pick({
   RENDER_WORKER_POLL_SECONDS: z.coerce.number().min(0.5).max(60).default(1),
   // How often this worker runs pg-boss maintenance, which hands the jobs of dead workers to live ones.
   RENDER_WORKER_MAINTENANCE_SECONDS: z.coerce.number().int().min(1).max(3600).default(30),
+  RENDER_POOL: PoolNameSchema,
 });
 
 function parseWorkerEnv(source: Record<string, string | undefined>) {
@@ -95,7 +96,8 @@ async function main() {
     return "retry";
   }
 
-  await boss.work(CHUNK_QUEUE, { pollingIntervalSeconds: env.RENDER_WORKER_POLL_SECONDS, batchSize: 1, includeMetadata: true }, async ([job]) => {
+  const queues = queueNames(env.RENDER_POOL);
+  await boss.work(queues.chunk, { pollingIntervalSeconds: env.RENDER_WORKER_POLL_SECONDS, batchSize: 1, includeMetadata: true }, async ([job]) => {
     const data = ChunkJobSchema.parse(job.data);
     if (stopping) throw new Error("worker is stopping; another worker will take this chunk");
     let outcome: Awaited<ReturnType<typeof runChunk>>;
@@ -113,7 +115,7 @@ async function main() {
     return { outcome };
   });
 
-  await boss.work(MERGE_QUEUE, { pollingIntervalSeconds: env.RENDER_WORKER_POLL_SECONDS, batchSize: 1, includeMetadata: true }, async ([job]) => {
+  await boss.work(queues.merge, { pollingIntervalSeconds: env.RENDER_WORKER_POLL_SECONDS, batchSize: 1, includeMetadata: true }, async ([job]) => {
     const data = MergeJobSchema.parse(job.data);
     try {
       return { outcome: await mergeRender(deps, data.renderId) };
@@ -123,7 +125,7 @@ async function main() {
     }
   });
 
-  console.log(`[${name}] render worker ready (queues ${CHUNK_QUEUE}, ${MERGE_QUEUE})`);
+  console.log(`[${name}] render worker ready (queues ${queues.chunk}, ${queues.merge})`);
 
   const shutdown = async (signal: string) => {
     if (stopping) return;

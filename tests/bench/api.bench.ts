@@ -5,6 +5,7 @@
 // Runs through bin/with-test-env by itself when no database is configured (it needs the object store settings
 // for the server; the data lives only in tracewell_bench).
 import { spawn, spawnSync } from "node:child_process";
+import { rmSync } from "node:fs";
 import { randomUUID } from "node:crypto";
 import { join } from "node:path";
 import autocannon from "autocannon";
@@ -179,10 +180,10 @@ async function seed(): Promise<Seeded> {
 }
 
 async function serve(): Promise<{ url: string; stop(): void }> {
-  const dir = process.env.BENCH_BUILD_DIR ?? ROOT;
-  if (!process.env.BENCH_BUILD_DIR) {
+  let dir = process.env.BENCH_BUILD_DIR;
+  if (!dir) {
     const { ensureBuild } = await import("../integration/api-fixtures");
-    await ensureBuild();
+    dir = await ensureBuild();
   }
   const { freePort } = await import("../integration/api-fixtures");
   const port = await freePort();
@@ -203,7 +204,15 @@ async function serve(): Promise<{ url: string; stop(): void }> {
   const url = `http://127.0.0.1:${port}`;
   for (let i = 0; i < 240; i++) {
     try {
-      if ((await fetch(`${url}/api/v1/openapi.json`)).ok) return { url, stop: () => child.kill("SIGTERM") };
+      if ((await fetch(`${url}/api/v1/openapi.json`)).ok) {
+        return {
+          url,
+          stop: () => {
+            child.kill("SIGTERM");
+            if (!process.env.BENCH_BUILD_DIR) child.once("exit", () => rmSync(dir, { recursive: true, force: true }));
+          },
+        };
+      }
     } catch {
       // starting
     }

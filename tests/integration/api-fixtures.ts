@@ -1,7 +1,8 @@
 // Shared by the API and pool integration tests: unique people, projects, scenes and tokens (the test
 // database is shared, nothing is ever truncated), a served build of the app, and render worker processes.
 import { spawn, type ChildProcess } from "node:child_process";
-import { existsSync, mkdirSync, readdirSync, rmSync, statSync } from "node:fs";
+import { cpSync, existsSync, mkdirSync, mkdtempSync, readdirSync, rmSync, statSync, symlinkSync } from "node:fs";
+import { tmpdir } from "node:os";
 import { createServer } from "node:net";
 import { join } from "node:path";
 import { randomUUID } from "node:crypto";
@@ -105,8 +106,12 @@ function run(cmd: string, args: string[], env: NodeJS.ProcessEnv): Promise<void>
   });
 }
 
-/** Builds the app when there is no build or the sources are newer than it (one test file at a time). */
-export async function ensureBuild(): Promise<void> {
+/**
+ * Builds the app when there is no build or the sources are newer than it (one test file at a time), and
+ * returns a private copy of it: other people rebuilding ./build meanwhile must not swap files under a
+ * server that is being tested.
+ */
+export async function ensureBuild(): Promise<string> {
   const lock = join(ROOT, ".data/api-test-build.lock");
   mkdirSync(join(ROOT, ".data"), { recursive: true });
   for (;;) {
@@ -123,6 +128,11 @@ export async function ensureBuild(): Promise<void> {
     const server = join(ROOT, "build/server/index.js");
     const stale = !existsSync(server) || Math.max(newestMtime(join(ROOT, "app")), newestMtime(join(ROOT, "tracer"))) > statSync(server).mtimeMs;
     if (stale) await run(join(BIN, "react-router"), ["build"], process.env);
+    const copy = mkdtempSync(join(tmpdir(), "tracewell-api-test-"));
+    cpSync(join(ROOT, "build"), join(copy, "build"), { recursive: true });
+    cpSync(join(ROOT, "package.json"), join(copy, "package.json"));
+    symlinkSync(join(ROOT, "node_modules"), join(copy, "node_modules"));
+    return copy;
   } finally {
     rmSync(lock, { recursive: true, force: true });
   }
@@ -164,11 +174,11 @@ function stopChild(child: ChildProcess, signal: NodeJS.Signals = "SIGTERM"): Pro
 export async function serveApp(extraEnv: Record<string, string> = {}): Promise<Served> {
   const given = process.env.TRACEWELL_URL;
   if (given && /^https?:\/\//.test(given)) return { baseUrl: given.replace(/\/$/, ""), stop: async () => undefined };
-  await ensureBuild();
+  const dir = await ensureBuild();
   const port = await freePort();
   let out = "";
   const child = spawn(join(BIN, "react-router-serve"), ["./build/server/index.js"], {
-    cwd: ROOT,
+    cwd: dir,
     env: { ...process.env, NODE_ENV: "production", PORT: String(port), HOST: "127.0.0.1", ...extraEnv },
     stdio: ["ignore", "pipe", "pipe"],
   });
@@ -176,7 +186,13 @@ export async function serveApp(extraEnv: Record<string, string> = {}): Promise<S
   child.stderr?.on("data", (d: Buffer) => (out = (out + d.toString()).slice(-4000)));
   const baseUrl = `http://127.0.0.1:${port}`;
   await waitForHttp(`${baseUrl}/api/v1/openapi.json`, child, () => out);
-  return { baseUrl, stop: () => stopChild(child) };
+  return {
+    baseUrl,
+    stop: async () => {
+      await stopChild(child);
+      rmSync(dir, { recursive: true, force: true });
+    },
+  };
 }
 
 export type WorkerProc = { child: ChildProcess; name: string; output(): string; stop(signal?: NodeJS.Signals): Promise<void> };

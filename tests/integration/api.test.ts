@@ -19,7 +19,8 @@ let renderToken: string;
 let conforms: (schemaId: string, body: unknown) => string | null = () => "schemas not loaded";
 
 beforeAll(async () => {
-  served = await serveApp();
+  // No worker serves this pool: queued renders stay queued, whatever workers others run on the database.
+  served = await serveApp({ RENDER_POOL: `api-test-${Math.random().toString(36).slice(2, 10)}` });
   base = served.baseUrl;
   owner = await makeUser("api-owner");
   project = await makeProject(owner.id);

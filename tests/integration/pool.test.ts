@@ -17,6 +17,10 @@ import { client, makeProject, makeScene, makeToken, makeUser, serveApp, startWor
 
 // Long enough for one chunk of the kill test on a busy 2-core machine, short enough to wait for.
 const EXPIRE_SECONDS = 20;
+// A pool of our own, so workers other people run on the shared test database never take these chunks.
+// (Against a server given by TRACEWELL_URL, set RENDER_POOL to the pool that server queues to.)
+const POOL = process.env.TRACEWELL_URL ? (process.env.RENDER_POOL ?? "") : `test-${Math.random().toString(36).slice(2, 10)}`;
+const poolEnv: Record<string, string> = POOL ? { RENDER_POOL: POOL } : {};
 
 let served: Served;
 let api: ReturnType<typeof client>;
@@ -25,14 +29,14 @@ const workers: WorkerProc[] = [];
 
 beforeAll(async () => {
   await ensureBucket();
-  served = await serveApp({ RENDER_CHUNK_EXPIRE_SECONDS: String(EXPIRE_SECONDS) });
+  served = await serveApp({ RENDER_CHUNK_EXPIRE_SECONDS: String(EXPIRE_SECONDS), ...poolEnv });
   const user = await makeUser("pool");
   const project = await makeProject(user.id);
   const doc = studioScene({ width: 32, height: 20, spp: 16, seed: 29 });
   const { scene, version } = await makeScene(project.id, user.id, doc);
   ctx = { projectId: project.id, sceneId: scene.id, versionId: version.id, userId: user.id, doc };
   api = client(served.baseUrl, await makeToken(user.id, "render"));
-  workers.push(startWorker("pool-test-w1"), startWorker("pool-test-w2"));
+  workers.push(startWorker("pool-test-w1", poolEnv), startWorker("pool-test-w2", poolEnv));
   await Promise.all(workers.map((w) => waitForOutput(w, /render worker ready/)));
 });
 
@@ -125,7 +129,7 @@ describe("render pool", () => {
     expect(done.accumulationHash).toBe(accumulationHash(single!));
 
     // Put a second worker back for the tests that follow.
-    workers[0] = startWorker("pool-test-w3");
+    workers[0] = startWorker("pool-test-w3", poolEnv);
     await waitForOutput(workers[0], /render worker ready/);
   });
 
