@@ -12,6 +12,15 @@ const FORMAT = { insertSpaces: true, tabSize: 2, eol: "\n" } as const;
 /** Replace (or insert) the value at `path`; `undefined` removes the member. Throws if the text is not JSON. */
 export function setAtPath(text: string, path: readonly PathSegment[], value: unknown): string {
   assertParseable(text);
+  if (value !== undefined) {
+    // Replacing an existing value: write it in our compact layout at the member's own indentation.
+    const node = findNodeAtLocation(parseTree(text, [], { disallowComments: true })!, [...path]);
+    if (node) {
+      const lineStart = text.lastIndexOf("\n", node.offset - 1) + 1;
+      const indent = /^[ \t]*/.exec(text.slice(lineStart))![0];
+      return text.slice(0, node.offset) + prettyJson(value, indent) + text.slice(node.offset + node.length);
+    }
+  }
   const edits = modify(text, [...path], value, { formattingOptions: FORMAT });
   return applyEdits(text, edits);
 }
@@ -160,4 +169,21 @@ export function getIn(value: unknown, path: readonly PathSegment[]): unknown {
     cur = (cur as Record<string | number, unknown>)[seg];
   }
   return cur;
+}
+
+/** 2-space JSON, with arrays of plain values (vectors, colours) kept on one line; `pad` is the current indentation. */
+export function prettyJson(v: unknown, pad = ""): string {
+  if (Array.isArray(v)) {
+    if (v.length === 0) return "[]";
+    if (v.every((x) => x === null || typeof x !== "object")) return `[${v.map((x) => JSON.stringify(x)).join(", ")}]`;
+    const inner = pad + "  ";
+    return `[\n${v.map((x) => inner + prettyJson(x, inner)).join(",\n")}\n${pad}]`;
+  }
+  if (v !== null && typeof v === "object") {
+    const entries = Object.entries(v as Record<string, unknown>).filter(([, x]) => x !== undefined);
+    if (entries.length === 0) return "{}";
+    const inner = pad + "  ";
+    return `{\n${entries.map(([k, x]) => `${inner}${JSON.stringify(k)}: ${prettyJson(x, inner)}`).join(",\n")}\n${pad}}`;
+  }
+  return JSON.stringify(v);
 }

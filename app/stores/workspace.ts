@@ -9,7 +9,7 @@ import type { Scene } from "@tracer/scene/schema";
 import type { SceneIssue, SceneResult } from "@tracer/scene/validate";
 import { writeBackBalance } from "~/lib/workspace-balance";
 import { NEUTRAL_BALANCE, type GroupBalance } from "~/lib/workspace-image";
-import { setManyAtPaths, type PathSegment } from "~/lib/workspace-json";
+import { prettyJson, setManyAtPaths, type PathSegment } from "~/lib/workspace-json";
 
 export type EditSource = "editor" | "form" | "balance" | "history" | "load" | "conflict";
 
@@ -241,5 +241,5 @@ function ordered(value: unknown, inRecord = false): unknown {
 
 /** Text of a stored scene as the editor shows it: 2-space JSON in the scene format's reading order. */
 export function sceneToText(scene: unknown): string {
-  return JSON.stringify(ordered(scene), null, 2) + "\n";
+  return prettyJson(ordered(scene), "") + "\n";
 }

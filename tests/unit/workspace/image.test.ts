@@ -138,3 +138,17 @@ describe("issue paths to editor ranges", () => {
     expect(kettleText.slice(missing.offset, missing.offset + missing.length)).toBe('"camera"');
   });
 });
+
+describe("format-keeping edits", () => {
+  it("replaces a vector in place on one line and leaves the rest of the text alone", async () => {
+    const { setAtPath, prettyJson } = await import("~/lib/workspace-json");
+    const text = prettyJson({ a: { center: [0, 1, 2], n: 1 }, b: "x" }) + "\n";
+    const out = setAtPath(text, ["a", "center"], [3, 4, 5]);
+    expect(out).toBe(text.replace("[0, 1, 2]", "[3, 4, 5]"));
+    const shape = setAtPath(text, ["a"], { type: "disk", normal: [0, -1, 0] });
+    expect(JSON.parse(shape)).toEqual({ a: { type: "disk", normal: [0, -1, 0] }, b: "x" });
+    expect(shape).toContain('  "a": {\n    "type": "disk",\n    "normal": [0, -1, 0]\n  },');
+    expect(JSON.parse(setAtPath(text, ["a", "n"], undefined))).toEqual({ a: { center: [0, 1, 2] }, b: "x" });
+    expect(JSON.parse(setAtPath(text, ["c", "d"], 2))).toEqual({ a: { center: [0, 1, 2], n: 1 }, b: "x", c: { d: 2 } });
+  });
+});

@@ -182,3 +182,13 @@ describe("sceneToText", () => {
     expect(Object.keys(mats.zinc!)).toEqual(["type", "reflectance", "roughness"]);
   });
 });
+
+describe("sceneToText layout", () => {
+  it("keeps vectors and colours on one line and round-trips exactly", () => {
+    const text = sceneToText(kettleScene);
+    expect(text).toContain('"center": [0, 0.5, 0]');
+    expect(text).toContain('"albedo": [0.8, 0.75, 0.7]');
+    expect(JSON.parse(text)).toEqual(kettleScene);
+    expect(text.endsWith("}\n")).toBe(true);
+  });
+});
