@@ -6,6 +6,7 @@
 // for the server; the data lives only in tracewell_bench).
 import { spawn, spawnSync } from "node:child_process";
 import { rmSync } from "node:fs";
+import { cpus, loadavg } from "node:os";
 import { randomUUID } from "node:crypto";
 import { join } from "node:path";
 import autocannon from "autocannon";
@@ -275,9 +276,10 @@ async function main() {
     for (const s of scenarios) rows.push(await load(server.url, seeded.token, s, args.duration));
     const base = rows[0].requestsPerSecond;
     if (args.json) {
-      console.log(JSON.stringify({ connections: args.connections, durationSeconds: args.duration, rows: rows.map((r) => ({ ...r, ratioToVersionRead: r.requestsPerSecond / base })) }));
+      console.log(JSON.stringify({ connections: args.connections, durationSeconds: args.duration, loadAverage: loadavg(), rows: rows.map((r) => ({ ...r, ratioToVersionRead: r.requestsPerSecond / base })) }));
     } else {
-      console.log(`\nAPI v1 on loopback: ${args.connections} connections, ${args.duration} s per scenario (autocannon), one server process`);
+      const load = loadavg().map((l) => l.toFixed(1)).join(" ");
+      console.log(`\nAPI v1 on loopback: ${args.connections} connections, ${args.duration} s per scenario (autocannon), one server process; load average ${load} on ${cpus().length} cores`);
       console.log(["scenario".padEnd(44), "req/s".padStart(9), "× version read".padStart(15), "p50 ms".padStart(8), "p99 ms".padStart(8), "errors".padStart(7)].join(" "));
       for (const r of rows) {
         console.log(
