@@ -9,6 +9,7 @@ import { assetKindForName, inspectAsset, MAX_ASSET_BYTES } from "~/lib/asset-ins
 import { logActivity } from "~/models/activity.server";
 import { AssetError, assetRef, deleteAsset, listAssets } from "~/models/asset.server";
 import { requireAccess } from "~/services/permissions.server";
+import { smallForm } from "~/services/body-limit.server";
 import type { Route } from "./+types/projects.$projectId.assets._index";
 
 export function meta() {
@@ -39,7 +40,7 @@ const DeleteSchema = z.object({ intent: z.literal("delete"), sha256: z.string().
 
 export async function action({ request, params }: Route.ActionArgs) {
   const access = await requireAccess(request, { projectId: params.projectId }, "upload");
-  const parsed = DeleteSchema.safeParse(Object.fromEntries(await request.formData()));
+  const parsed = DeleteSchema.safeParse(Object.fromEntries(await smallForm(request)));
   if (!parsed.success) return data({ error: "sha256: not an asset hash" }, { status: 400 });
   try {
     await deleteAsset(access.projectId, parsed.data.sha256);

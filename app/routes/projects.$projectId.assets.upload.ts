@@ -4,6 +4,7 @@
 import { logActivity } from "~/models/activity.server";
 import { AssetError, assetRef, uploadAsset } from "~/models/asset.server";
 import { MAX_ASSET_BYTES } from "~/lib/asset-inspect";
+import { BodyTooLargeError, readBodyLimited } from "~/services/body-limit.server";
 import { requireAccess } from "~/services/permissions.server";
 import type { Route } from "./+types/projects.$projectId.assets.upload";
 
@@ -15,9 +16,13 @@ export async function action({ request, params }: Route.ActionArgs) {
   const access = await requireAccess(request, { projectId: params.projectId }, "upload");
   const name = (new URL(request.url).searchParams.get("name") ?? "").trim();
   if (!name) return fail(400, "name: the file name is required (?name=…)");
-  const declared = Number(request.headers.get("content-length") ?? "0");
-  if (declared > MAX_ASSET_BYTES) return fail(413, `${name}: ${declared} bytes is more than the ${MAX_ASSET_BYTES}-byte limit`);
-  const bytes = new Uint8Array(await request.arrayBuffer());
+  let bytes: Uint8Array;
+  try {
+    bytes = await readBodyLimited(request, MAX_ASSET_BYTES);
+  } catch (e) {
+    if (e instanceof BodyTooLargeError) return fail(413, `${name}: more than the ${MAX_ASSET_BYTES}-byte limit`);
+    throw e;
+  }
   try {
     const { asset, created } = await uploadAsset({ projectId: access.projectId, name, bytes, uploadedBy: access.actor.user.id });
     if (created) await logActivity(access.projectId, access.actor.user.id, "asset.uploaded", { sha256: asset.sha256, name: asset.name });

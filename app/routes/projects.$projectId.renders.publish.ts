@@ -8,12 +8,16 @@ import { thumbnailPng } from "~/lib/render-outputs";
 import { logActivity } from "~/models/activity.server";
 import { PublishMetadataSchema, publishRender } from "~/models/render.server";
 import { getScene, getVersion } from "~/models/scene.server";
+import { BodyTooLargeError, formDataLimited } from "~/services/body-limit.server";
 import { requireAccess } from "~/services/permissions.server";
 import type { RenderFileBytes } from "~/services/render-files.server";
 import type { Route } from "./+types/projects.$projectId.renders.publish";
 
-/** Well above a full-size 8192² float image with groups; the store, not the app, is the real ceiling. */
-const MAX_PUBLISH_BYTES = 2 * 1024 * 1024 * 1024;
+/**
+ * The whole multipart body is held in memory while it is checked, so it is bounded: 768 MiB covers a
+ * 4096×4096 render with its PFM, HDR, PNG, state and a few light groups. Larger renders belong to the pool.
+ */
+const MAX_PUBLISH_BYTES = 768 * 1024 * 1024;
 
 function fail(status: number, error: string, field?: string) {
   return Response.json({ ok: false, error, field }, { status });
@@ -33,13 +37,11 @@ export async function loader() {
 export async function action({ request, params }: Route.ActionArgs) {
   if (request.method !== "POST") return fail(405, "only POST");
   const access = await requireAccess(request, { projectId: params.projectId }, "render");
-  const length = Number(request.headers.get("content-length") ?? "0");
-  if (length > MAX_PUBLISH_BYTES) return fail(413, `the upload is ${length} bytes, more than the ${MAX_PUBLISH_BYTES}-byte limit`);
-
   let form: FormData;
   try {
-    form = await request.formData();
-  } catch {
+    form = await formDataLimited(request, MAX_PUBLISH_BYTES);
+  } catch (e) {
+    if (e instanceof BodyTooLargeError) return fail(413, `the upload is more than the ${MAX_PUBLISH_BYTES}-byte limit`);
     return fail(400, "the body must be multipart/form-data");
   }
   const sceneId = String(form.get("sceneId") ?? "");

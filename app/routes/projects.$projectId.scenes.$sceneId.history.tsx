@@ -8,9 +8,10 @@ import { Button, buttonClass, Field, Input, Notice, Panel, Select, Table, Td, Th
 import { copyAssetsForScene } from "~/models/asset.server";
 import { logActivity } from "~/models/activity.server";
 import { listProjectsForUser } from "~/models/project.server";
-import { forkScene, getForkOrigin, getScene, listForks, listVersions, restoreVersion } from "~/models/scene.server";
+import { forkScene, getForkOrigin, getScene, getVersion, listForks, listVersions, restoreVersion } from "~/models/scene.server";
 import { authorize } from "~/services/permissions.server";
 import { notFound, requireInProject } from "~/services/project-access.server";
+import { smallForm } from "~/services/body-limit.server";
 import type { Route } from "./+types/projects.$projectId.scenes.$sceneId.history";
 
 export function meta({ data: d }: Route.MetaArgs) {
@@ -77,7 +78,7 @@ const ActionSchema = z.discriminatedUnion("intent", [
 
 export async function action({ request, params }: Route.ActionArgs) {
   const access = await requireInProject(request, params.projectId, { sceneId: params.sceneId }, "view");
-  const parsed = ActionSchema.safeParse(Object.fromEntries(await request.formData()));
+  const parsed = ActionSchema.safeParse(Object.fromEntries(await smallForm(request)));
   if (!parsed.success) {
     const issue = parsed.error.issues[0];
     return data({ error: `${issue?.path.join(".") || "form"}: ${issue?.message}` }, { status: 400 });
@@ -98,7 +99,10 @@ export async function action({ request, params }: Route.ActionArgs) {
     return { ok: `Restored as version ${result.version.number}.` };
   }
 
-  // Fork: reading the source is enough here; the target project needs "edit".
+  // Fork: only versions of this scene (the one whose access was checked); reading it is enough, the target
+  // project needs "edit".
+  const source = await getVersion(input.versionId);
+  if (!source || source.sceneId !== params.sceneId) notFound();
   const target = await authorize(access.actor, { projectId: input.targetProjectId }, "edit");
   if (!target.ok) return data({ error: "You can fork only into a project where you are an editor or owner." }, { status: 403 });
   const fork = await forkScene({ versionId: input.versionId, targetProjectId: input.targetProjectId, authorId: userId, name: input.name });

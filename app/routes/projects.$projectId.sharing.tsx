@@ -8,7 +8,11 @@ import { importBundle } from "~/models/bundle.server";
 import { listScenes, listVersions } from "~/models/scene.server";
 import { createShareLink, listShareLinks, revokeShareLink, shareLinkState } from "~/models/share.server";
 import { requireAccess } from "~/services/permissions.server";
+import { formDataLimited } from "~/services/body-limit.server";
 import type { Route } from "./+types/projects.$projectId.sharing";
+
+/** A bundle carries its assets base64-encoded (4/3 of their size). */
+const MAX_BUNDLE_BYTES = 256 * 1024 * 1024;
 
 export function meta() {
   return [{ title: "Sharing · Tracewell" }];
@@ -56,7 +60,8 @@ const ActionSchema = z.discriminatedUnion("intent", [
 ]);
 
 export async function action({ request, params }: Route.ActionArgs) {
-  const form = await request.formData();
+  const form = await formDataLimited(request, MAX_BUNDLE_BYTES).catch(() => null);
+  if (!form) return data({ error: `bundle: the file must be at most ${MAX_BUNDLE_BYTES} bytes` }, { status: 413 });
   const entries = Object.fromEntries([...form.entries()].filter(([, v]) => typeof v === "string"));
   const parsed = ActionSchema.safeParse(entries);
   if (!parsed.success) {

@@ -13,6 +13,7 @@ import { listRendersForVersions } from "~/models/render.server";
 import { forkScene } from "~/models/scene.server";
 import { openShareLink } from "~/models/share.server";
 import { authorize, getActor } from "~/services/permissions.server";
+import { smallForm } from "~/services/body-limit.server";
 import type { Route } from "./+types/s.$token";
 
 export function meta({ data: d }: Route.MetaArgs) {
@@ -58,7 +59,7 @@ export async function action({ request, params }: Route.ActionArgs) {
   if (!share) throw data(GONE, { status: 404 });
   const actor = await getActor(request);
   if (actor.kind !== "user") return redirect(`/login?next=${encodeURIComponent(`/s/${params.token}`)}`);
-  const parsed = ForkSchema.safeParse(Object.fromEntries(await request.formData()));
+  const parsed = ForkSchema.safeParse(Object.fromEntries(await smallForm(request)));
   if (!parsed.success) return data({ error: "targetProjectId: choose a project" }, { status: 400 });
   const target = await authorize(actor, { projectId: parsed.data.targetProjectId }, "edit");
   if (!target.ok) return data({ error: "You can fork only into a project where you are an editor or owner." }, { status: 403 });

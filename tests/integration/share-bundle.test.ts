@@ -30,10 +30,9 @@ async function renderHash(projectId: string, sceneJson: Record<string, unknown>)
 
 async function kettleWithMesh(projectId: string, userId: string) {
   const { asset } = await uploadAsset({ projectId, name: "wren-kettle.obj", bytes: new Uint8Array(readFileSync("scenes/meshes/wren-kettle.obj")), uploadedBy: userId });
-  const scene = kettleScene({ spp: 2 }) as ReturnType<typeof kettleScene> & { objects: Record<string, unknown>[] };
-  scene.image = { width: 12, height: 9 };
+  const scene = { ...kettleScene({ spp: 2 }), image: { width: 12, height: 9 } } as unknown as { objects: Record<string, unknown>[] } & Record<string, unknown>;
   scene.objects[0] = { id: "kettle", shape: { type: "mesh", asset: `sha256:${asset.sha256}`, scale: 2 }, material: "glaze" };
-  return scene as unknown as Record<string, unknown>;
+  return scene;
 }
 
 describe("share links", () => {

@@ -1,0 +1,50 @@
+// Reads a request body but never more than `limit` bytes, whether or not the client declared a length:
+// a chunked upload is cut off (413) as soon as it passes the limit instead of being buffered whole.
+export class BodyTooLargeError extends Error {
+  constructor(readonly limit: number) {
+    super(`the upload is larger than the ${limit}-byte limit`);
+    this.name = "BodyTooLargeError";
+  }
+}
+
+export async function readBodyLimited(request: Request, limit: number): Promise<Uint8Array> {
+  const declared = Number(request.headers.get("content-length") ?? "NaN");
+  if (Number.isFinite(declared) && declared > limit) throw new BodyTooLargeError(limit);
+  if (!request.body) return new Uint8Array(0);
+  const reader = request.body.getReader();
+  const chunks: Uint8Array[] = [];
+  let total = 0;
+  for (;;) {
+    const { done, value } = await reader.read();
+    if (done) break;
+    total += value.byteLength;
+    if (total > limit) {
+      await reader.cancel().catch(() => undefined);
+      throw new BodyTooLargeError(limit);
+    }
+    chunks.push(value);
+  }
+  const out = new Uint8Array(total);
+  let o = 0;
+  for (const c of chunks) {
+    out.set(c, o);
+    o += c.byteLength;
+  }
+  return out;
+}
+
+/** multipart/form-data or urlencoded, parsed from a body read with the limit above. */
+export async function formDataLimited(request: Request, limit: number): Promise<FormData> {
+  const bytes = await readBodyLimited(request, limit);
+  return new Response(new Blob([bytes.slice().buffer as ArrayBuffer]), { headers: { "content-type": request.headers.get("content-type") ?? "" } }).formData();
+}
+
+/** Ordinary page forms (a few ids and a message): refused beyond 64 KiB. */
+export async function smallForm(request: Request): Promise<FormData> {
+  try {
+    return await formDataLimited(request, 64 * 1024);
+  } catch (e) {
+    if (e instanceof BodyTooLargeError) throw Response.json({ error: e.message }, { status: 413 });
+    throw e;
+  }
+}
