@@ -50,6 +50,10 @@ async function startDatabase(): Promise<void> {
   }
 }
 
+// A render pool of our own, so workers other people run on the shared test database never take these chunks.
+const POOL = process.env.TRACEWELL_URL ? (process.env.RENDER_POOL ?? "") : `faults-${Math.random().toString(36).slice(2, 10)}`;
+const poolEnv: Record<string, string> = POOL ? { RENDER_POOL: POOL } : {};
+
 type Probe = { phase: "before" | "down" | "after"; path: string; status: number; body: string };
 
 /** One request with a bound: a server that hangs instead of answering shows up as status 0. */
@@ -71,8 +75,8 @@ describe("the database restarted while requests and a pool render run", () => {
   beforeAll(async () => {
     expect(PGDATA && PGBIN, "run under bin/with-test-env (it exports PGDATA and PGBIN)").toBeTruthy();
     await ensureBucket();
-    served = await serveApp();
-    worker = startWorker("faults-w1");
+    served = await serveApp(poolEnv);
+    worker = startWorker("faults-w1", poolEnv);
     await waitForOutput(worker, /render worker ready/);
   }, 600_000);
 
