@@ -194,7 +194,17 @@ export async function mergeRender(deps: PoolDeps, renderId: string): Promise<Mer
   if (render.continuedFromId) {
     const [source] = await deps.db.select({ files: renders.files }).from(renders).where(eq(renders.id, render.continuedFromId));
     if (!source?.files.state) throw new PermanentJobError("the render this one continues has no stored accumulation state");
-    acc = deserializeAccumulation(await deps.store.get(source.files.state));
+    const stored = deserializeAccumulation(await deps.store.get(source.files.state));
+    const from = chunks[0]?.passStart ?? 0;
+    if (stored.width !== acc.width || stored.height !== acc.height || stored.groupCount !== acc.groupCount) {
+      throw new PermanentJobError(
+        `the stored state is ${stored.width}×${stored.height} with ${stored.groupCount} light groups; this scene renders ${acc.width}×${acc.height} with ${acc.groupCount}`,
+      );
+    }
+    if (!stored.counts.every((c) => c === from)) {
+      throw new PermanentJobError(`the stored state does not hold exactly ${from} passes in every pixel, so it cannot be continued exactly`);
+    }
+    acc = stored;
   }
   // Integer sums: the order of chunks does not matter, the result is the same bits as one process.
   for (const c of chunks) acc = mergeAccumulations(acc, deserializeAccumulation(await deps.store.get(c.objectKey as string)));

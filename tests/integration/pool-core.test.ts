@@ -8,7 +8,7 @@ import { renders } from "~/db/schema";
 import { createPoolRender, getPoolRender, listChunks, planChunks, sceneForRender } from "~/models/render-job.server";
 import { db, dbPool } from "~/services/db.server";
 import { deleteObject, ensureBucket, getObjectBytes, putObject } from "~/services/storage.server";
-import { mergeRender, renderPasses, runChunk, type PoolDeps } from "~/workers/pool.server";
+import { PermanentJobError, mergeRender, renderPasses, runChunk, type PoolDeps } from "~/workers/pool.server";
 import { accumulationHash, compileScene, decodePfm, deserializeAccumulation, resolveBeauty, serializeAccumulation, TRACER_VERSION, validateScene } from "@tracer/index";
 import { makeProject, makeScene, makeUser, studioScene } from "./api-fixtures";
 
@@ -156,5 +156,47 @@ describe("pool chunks and merge", () => {
     expect(await mergeRender(deps("w-a", done), render.id)).toBe("skipped");
     expect((await listChunks(db(), render.id)).every((c) => c.status === "cancelled")).toBe(true);
     expect(await cancelPoolRender(db(), render.id)).toBe(false);
+  });
+
+  it("refuses to continue from state that does not hold exactly the passes its render claims", async () => {
+    const size = { width: 20, height: 12, seed: 17 };
+    const preview = await renderPasses(compiledFor(ctx.doc, size), 0, 3);
+    const stateKey = `tests/pool-core/${ctx.scene.id}/short-state.bin`;
+    await putObject(stateKey, serializeAccumulation(preview!));
+    const [browser] = await db()
+      .insert(renders)
+      .values({
+        projectId: ctx.project.id,
+        sceneId: ctx.scene.id,
+        versionId: ctx.version.id,
+        source: "browser",
+        status: "done",
+        spp: 4,
+        sppDone: 4, // claims 4 passes, holds 3
+        ...size,
+        integrator: "path",
+        tracerVersion: TRACER_VERSION,
+        files: { state: stateKey },
+        createdBy: ctx.user.id,
+        finishedAt: new Date(),
+      })
+      .returning();
+    const render = await createPoolRender(db(), {
+      projectId: ctx.project.id,
+      sceneId: ctx.scene.id,
+      versionId: ctx.version.id,
+      spp: 6,
+      ...size,
+      integrator: "path",
+      tracerVersion: TRACER_VERSION,
+      title: "",
+      createdBy: ctx.user.id,
+      continuedFromId: browser!.id,
+      chunks: planChunks(4, 6, 2),
+    });
+    const done: string[] = [];
+    await runChunk(deps("w-a", done), render.id, 0);
+    await expect(mergeRender(deps("w-a", done), render.id)).rejects.toThrow(PermanentJobError);
+    await expect(mergeRender(deps("w-a", done), render.id)).rejects.toThrow(/exactly 4 passes/);
   });
 });
