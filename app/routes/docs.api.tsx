@@ -182,6 +182,13 @@ export default function ApiDocs({ loaderData }: Route.ComponentProps) {
           </p>
           <p>A worker needs only the database and the object store, so any machine can join:</p>
           <Code>{walkthrough.worker}</Code>
+          <p>
+            Settings: <code className="font-mono">RENDER_POOL</code> names a separate pool (servers queue to it, workers take from it; unset, all
+            share one); <code className="font-mono">RENDER_CHUNK_EXPIRE_SECONDS</code> (server, default 900) is how long a chunk may stay taken
+            before another worker redoes it, so keep chunks shorter than that; <code className="font-mono">RENDER_WORKER_NAME</code> labels the
+            worker in chunk lists. Each project's <em>pool</em> page (<code className="font-mono">/projects/&lt;id&gt;/pool</code>) shows chunks
+            as workers take them.
+          </p>
           <Notice>
             Illuminance-like figures elsewhere in Tracewell are estimates from a simulation; defer to local codes and licensed lighting practice
             for real installations.
