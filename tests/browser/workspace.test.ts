@@ -7,7 +7,7 @@ import { eq } from "drizzle-orm";
 import type { Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { memberships, projects, users } from "~/db/schema";
-import { createScene, getHead, getVersion } from "~/models/scene.server";
+import { createScene, getHead, getVersion, listVersions } from "~/models/scene.server";
 import { db } from "~/services/db.server";
 import { hashPassword } from "~/services/password.server";
 import { gotoHydrated, isLocal, newPerson, screenshot } from "../support/browser";
@@ -330,6 +330,16 @@ describe("scene workspace", () => {
     await page.keyboard.press("Escape");
     await page.keyboard.press("Control+z");
     await expect.poll(() => page.getByTestId("scene-valid").isVisible()).toBe(true);
+  });
+
+  it("opens an older version read-only", async () => {
+    const { page } = a;
+    const first = (await listVersions(sceneId)).find((v) => v.number === 1)!;
+    await openWorkspace(page, `${path}?version=${first.id}`);
+    expect(await page.getByTestId("base-version").innerText()).toBe("viewing version 1 (not the latest, read-only)");
+    expect(await page.getByLabel("Light key: Power (W)").inputValue()).toBe("40");
+    await expect(page.getByLabel("Light key: Power (W)").isDisabled()).resolves.toBe(true);
+    expect(await page.getByRole("button", { name: "Save version…" }).count()).toBe(0);
   });
 
   it("viewers see the scene but cannot save", async () => {
