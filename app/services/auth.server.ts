@@ -128,8 +128,10 @@ async function countAccountFailure(userId: string): Promise<void> {
 export async function signIn(input: { email: string; password: string; address: string }): Promise<PublicUser> {
   const now = Date.now();
   const email = normalizeEmail(input.email);
-  const addressKey = `addr:${input.address}`;
-  const address = await throttleRow(addressKey);
+  // Without a fronting proxy every request looks alike ("direct"); counting them together would let one person
+  // lock everybody out, so only a known address is throttled. Accounts are throttled either way.
+  const addressKey = input.address === "direct" ? null : `addr:${input.address}`;
+  const address = addressKey ? await throttleRow(addressKey) : undefined;
   const addressWait = remaining(address?.lockedUntil ?? null, now);
   if (addressWait > 0) throw new ThrottledError(addressMessage(addressWait), addressWait);
 
@@ -141,7 +143,7 @@ export async function signIn(input: { email: string; password: string; address: 
 
   const ok = user ? await verifyPassword(user.passwordHash, input.password) : (await burnPasswordCheck(input.password), false);
   if (!user || !ok) {
-    await countThrottleFailure(addressKey, THROTTLE.addressWindowMinutes, addressDelaySeconds);
+    if (addressKey) await countThrottleFailure(addressKey, THROTTLE.addressWindowMinutes, addressDelaySeconds);
     if (user) await countAccountFailure(user.id);
     else await countThrottleFailure(unknownKey, 24 * 60, accountDelaySeconds);
     throw new SignInError("E-mail or password is incorrect.");
