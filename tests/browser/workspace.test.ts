@@ -279,14 +279,18 @@ describe("scene workspace", () => {
     expect(await page.getByLabel("Light key: Power (W)").inputValue()).toBe("120"); // nothing typed is lost
     await screenshot(page, "workspace-conflict");
 
-    await dialog.getByRole("button", { name: "Keep my edits on top of version 3" }).click();
+    expect(await dialog.getByRole("button", { name: "Keep my edits on top of version 3" }).isVisible()).toBe(true);
+    await dialog.getByRole("button", { name: "Combine: version 3 plus my changes" }).click();
     expect(await page.getByLabel("What changed?").inputValue()).toBe("Key to 120 W");
+    await expect.poll(() => editorText(page)).toContain('"power": 120');
     await page.getByRole("button", { name: "Save", exact: true }).click();
     await expect.poll(() => page.getByTestId("base-version").innerText()).toBe("from version 4");
     const head = await getHead(sceneId);
     expect(head?.number).toBe(4);
     expect((await getVersion(head!.parentId!))?.number).toBe(3);
-    expect((head!.scene as typeof scene).lights[0]!.power).toBe(120);
+    const saved = head!.scene as typeof scene;
+    expect(saved.lights.find((l) => l.id === "key")!.power).toBe(120); // mine
+    expect(saved.camera.fovY).toBe(32); // theirs, kept
   });
 
   it("keeps unsaved edits in a local draft across a reload", async () => {

@@ -5,7 +5,10 @@
  */
 import { useEffect, useRef, useState } from "react";
 import type { FetcherWithComponents } from "react-router";
+import { validateScene } from "@tracer/scene/validate";
 import { Button, TextArea, toast } from "~/components/ui";
+import { combineEdits } from "~/lib/workspace-merge";
+import { sceneToText } from "~/stores/workspace";
 import { useWorkspace, useWorkspaceStore } from "./context";
 
 export type ConflictHead = { id: string; number: number; message: string; authorName: string | null; createdAt: string; text: string };
@@ -121,6 +124,19 @@ export function SaveControls({ fetcher, onSaved }: { fetcher: FetcherWithCompone
       {conflict ? (
         <ConflictDialog
           conflict={conflict}
+          combined={(() => {
+            const s = store.getState();
+            const merged = combineEdits(s.base.text, s.text, conflict.head.text);
+            return merged !== null && validateScene(merged).ok ? sceneToText(merged) : null;
+          })()}
+          onCombine={(text) => {
+            const s = store.getState();
+            s.rebaseOnto({ id: conflict.head.id, number: conflict.head.number, text: conflict.head.text });
+            s.edit(text, { source: "conflict", label: `combine my edits with version ${conflict.head.number}` });
+            setConflict(null);
+            setOpen(true);
+            toast(`Version ${conflict.head.number} with your changes on top. Check the preview, then save.`);
+          }}
           onClose={() => setConflict(null)}
           onKeepMine={() => {
             store.getState().rebaseOnto({ id: conflict.head.id, number: conflict.head.number, text: conflict.head.text });
@@ -139,7 +155,21 @@ export function SaveControls({ fetcher, onSaved }: { fetcher: FetcherWithCompone
   );
 }
 
-function ConflictDialog({ conflict, onClose, onKeepMine, onTakeTheirs }: { conflict: Conflict; onClose: () => void; onKeepMine: () => void; onTakeTheirs: () => void }) {
+function ConflictDialog({
+  conflict,
+  combined,
+  onCombine,
+  onClose,
+  onKeepMine,
+  onTakeTheirs,
+}: {
+  conflict: Conflict;
+  combined: string | null;
+  onCombine: (text: string) => void;
+  onClose: () => void;
+  onKeepMine: () => void;
+  onTakeTheirs: () => void;
+}) {
   const firstRef = useRef<HTMLButtonElement>(null);
   useEffect(() => firstRef.current?.focus(), []);
   const h = conflict.head;
@@ -168,12 +198,18 @@ function ConflictDialog({ conflict, onClose, onKeepMine, onTakeTheirs }: { confl
           <Button size="sm" onClick={onTakeTheirs} title="Replace your text with version ${h.number} (undo brings yours back)">
             Use version {h.number} instead
           </Button>
-          <Button ref={firstRef} size="sm" tone="primary" onClick={onKeepMine}>
+          <Button ref={combined ? undefined : firstRef} size="sm" tone={combined ? "secondary" : "primary"} onClick={onKeepMine}>
             Keep my edits on top of version {h.number}
           </Button>
+          {combined ? (
+            <Button ref={firstRef} size="sm" tone="primary" onClick={() => onCombine(combined)}>
+              Combine: version {h.number} plus my changes
+            </Button>
+          ) : null}
         </div>
         <p className="text-[11px] text-ink-faint">
-          “Keep my edits” saves your scene as you see it, replacing their changes in the fields listed on the left unless you carry them over first.
+          “Combine” starts from version {h.number} and re-applies each of your changes (where you both changed a field, yours wins); nothing is saved until you
+          save again. “Keep my edits” saves your scene exactly as you see it, undoing their changes listed on the left.
         </p>
       </div>
     </div>

@@ -192,3 +192,26 @@ describe("sceneToText layout", () => {
     expect(text.endsWith("}\n")).toBe(true);
   });
 });
+
+describe("combining my edits with a version saved in between", () => {
+  it("keeps their change and mine when they touch different fields, matching lights by id", async () => {
+    const { combineEdits } = await import("~/lib/workspace-merge");
+    const base = sceneToText(kettleScene);
+    const theirs = sceneToText({ ...kettleScene, camera: { ...kettleScene.camera, fovY: 32 }, lights: [...kettleScene.lights].reverse() });
+    const mineScene = structuredClone(kettleScene);
+    mineScene.lights[0]!.power = 120;
+    const merged = combineEdits(base, sceneToText(mineScene), theirs) as typeof kettleScene;
+    expect(merged.camera.fovY).toBe(32);
+    expect(merged.lights.map((l) => l.id)).toEqual(["bulb", "fill", "key"]);
+    expect(merged.lights.find((l) => l.id === "key")!.power).toBe(120);
+    expect(validateScene(merged).ok).toBe(true);
+  });
+
+  it("lets mine win where both changed the same field", async () => {
+    const { combineEdits } = await import("~/lib/workspace-merge");
+    const base = sceneToText(kettleScene);
+    const theirs = sceneToText({ ...kettleScene, render: { spp: 64 } });
+    const mine = sceneToText({ ...kettleScene, render: { spp: 256 } });
+    expect((combineEdits(base, mine, theirs) as typeof kettleScene).render.spp).toBe(256);
+  });
+});
