@@ -282,7 +282,8 @@ describe("scene workspace", () => {
     expect(await dialog.getByRole("button", { name: "Keep my edits on top of version 3" }).isVisible()).toBe(true);
     await dialog.getByRole("button", { name: "Combine: version 3 plus my changes" }).click();
     expect(await page.getByLabel("What changed?").inputValue()).toBe("Key to 120 W");
-    await expect.poll(() => editorText(page)).toContain('"power": 120');
+    await expect.poll(() => page.getByLabel("Light key: Power (W)").inputValue()).toBe("120");
+    await expect.poll(() => page.getByLabel("camera: Vertical view (°)").inputValue()).toBe("32");
     await page.getByRole("button", { name: "Save", exact: true }).click();
     await expect.poll(() => page.getByTestId("base-version").innerText()).toBe("from version 4");
     const head = await getHead(sceneId);
