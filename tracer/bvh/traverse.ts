@@ -128,16 +128,18 @@ export function closestHit(
 }
 
 /**
- * Closest hit for rays [begin, end) of a packed ray array (ox,oy,oz,dx,dy,dz,tmin,tmax per ray),
- * writing t,u,v,triangle per ray into `out` exactly like closestHit. This is closestHit's loop with
+ * Closest hit for rays order[begin..end) of a packed ray array (ox,oy,oz,dx,dy,dz,tmin,tmax per ray),
+ * writing t,u,v,triangle per ray into `out` (at the ray's own index) exactly like closestHit. The
+ * order lets the caller trace neighbouring rays one after another (see intersectRays). This is closestHit's loop with
  * the ray loop around it in the same function: V8 does not inline a function this large, and
  * calling one per ray with eight double arguments boxes every argument. Returns the number of hits.
  */
-export function closestHitBatch(tb: TriangleBvh, rays: Float32Array, begin: number, end: number, out: Float32Array, scratch: TraversalScratch = shared): number {
+export function closestHitBatch(tb: TriangleBvh, rays: Float32Array, order: Uint32Array, begin: number, end: number, out: Float32Array, scratch: TraversalScratch = shared): number {
   const nodes = tb.bvh.nodes, words = tb.bvh.words, tris = tb.tris;
   const stack = scratch.nodes, entry = scratch.entry;
   let hits = 0;
-  rays: for (let ray = begin; ray < end; ray++) {
+  rays: for (let i = begin; i < end; i++) {
+    const ray = order[i]!;
     const ro = ray * 8, offset = ray * 4;
     const ox = rays[ro]!, oy = rays[ro + 1]!, oz = rays[ro + 2]!, dx = rays[ro + 3]!, dy = rays[ro + 4]!, dz = rays[ro + 5]!;
     const tmin = rays[ro + 6]!, tmax = rays[ro + 7]!;

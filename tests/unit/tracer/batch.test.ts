@@ -95,8 +95,9 @@ describe("intersectRays on the Stanford bunny", () => {
   }
 
   it("agrees with brute force three.js Ray.intersectTriangle on incoherent and bounce rays", () => {
-    const primary = sphereRays(bunny.positions, 300, 11);
-    const out = new Float32Array(300 * 4);
+    // More rays than intersectRays' sorting threshold, so the reordered path is checked too.
+    const primary = sphereRays(bunny.positions, 1200, 11);
+    const out = new Float32Array(1200 * 4);
     const hits = intersectRays(mesh, primary, out);
     expect(hits).toBeGreaterThan(100);
     const bounce = bounceRays(bunny, primary, out, 12);
@@ -118,7 +119,7 @@ describe("intersectRays on the Stanford bunny", () => {
         }
       }
     }
-    expect(compared).toBeGreaterThan(400);
+    expect(compared).toBeGreaterThan(1600);
     // Grazing hits exactly on shared edges may go either way between formulations.
     expect(mismatches).toBeLessThanOrEqual(1);
   });
@@ -137,6 +138,21 @@ describe("intersectRays on the Stanford bunny", () => {
         expect(Math.abs(bary - (rays[i * 8 + k]! + t * rays[i * 8 + 3 + k]!))).toBeLessThan(1e-4);
       }
     }
+  });
+
+  it("writes each result at its own ray's index when a large batch is traced in sorted order", () => {
+    // Per-ray closestHit (checked against brute force above) is the reference for every slot.
+    const rays = sphereRays(bunny.positions, 3000, 21);
+    for (let i = 0; i < 3000; i += 7) rays[i * 8 + 7] = 0.3; // some rays end early: misses at known slots
+    const out = new Float32Array(3000 * 4), one = new Float64Array(4);
+    const hits = intersectRays(mesh, rays, out);
+    let expectedHits = 0;
+    for (let i = 0; i < 3000; i++) {
+      const r = rays.subarray(i * 8, i * 8 + 8);
+      if (closestHit(mesh, r[0]!, r[1]!, r[2]!, r[3]!, r[4]!, r[5]!, r[6]!, r[7]!, one, 0)) expectedHits++;
+      expect([out[i * 4], out[i * 4 + 1], out[i * 4 + 2], out[i * 4 + 3]]).toEqual(Array.from(one, (x) => Math.fround(x)));
+    }
+    expect(hits).toBe(expectedHits);
   });
 
   it("anyHit agrees with closestHit inside and beyond the hit distance", () => {
