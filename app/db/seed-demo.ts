@@ -209,11 +209,41 @@ async function seedRenders(conn: Database, accounts: SeededAccounts): Promise<{ 
   return out;
 }
 
+/**
+ * A second fork, across projects the other way: the catalogue team borrows the warm reading-light study for a
+ * kettle-and-lamp still life. The lamp scene has no uploaded assets, so nothing needs copying.
+ */
+async function seedCatalogueFork(conn: Database, accounts: SeededAccounts): Promise<number> {
+  const name = "Osier lamp: warm reading light (catalogue fork)";
+  const target = accounts.projects.kettle;
+  const [existing] = await conn.select({ id: scenes.id }).from(scenes).where(and(eq(scenes.projectId, target), eq(scenes.name, name)));
+  if (existing) return 0;
+  const [source] = await conn.select().from(scenes).where(and(eq(scenes.projectId, accounts.projects.lamp), eq(scenes.name, "Osier lamp: warm reading light")));
+  const head = source ? await getHead(source.id) : null;
+  if (!head) return 0;
+  const fork = await createSceneWith(conn, {
+    projectId: target,
+    name,
+    scene: head.scene,
+    authorId: accounts.people.tobias,
+    kind: "fork",
+    forkedFromVersionId: head.id,
+    message: "Forked from “Osier lamp: warm reading light” for the catalogue still life",
+  });
+  if (!fork.ok) throw new Error(`${name}: ${fork.issues.map((x) => `${x.path}: ${x.message}`).join("; ")}`);
+  const warmer = clone(head.scene) as unknown as SceneJson;
+  warmer.display = { ...warmer.display, exposure: 0.25 };
+  const saved = await saveVersionWith(conn, { sceneId: fork.scene.id, parentVersionId: fork.version.id, scene: warmer, message: "A quarter stop brighter for print", authorId: accounts.people.tobias });
+  if (!saved.ok) throw new Error(`${name}: could not save (${saved.reason})`);
+  return 1;
+}
+
 export async function seedDemo(conn: Database): Promise<DemoSeedResult> {
   const accounts = await seedAccounts(conn);
   const { maren, tobias, ines } = accounts.people;
   const sceneResult = await seedScenes(conn, { projectIds: [accounts.projects.kettle, accounts.projects.lamp], userIds: [maren, tobias, ines] });
   const lampStudies = await seedLampStudies(conn, accounts.projects.lamp, [ines, tobias, maren], join(process.cwd(), "scenes"));
+  sceneResult.forks += await seedCatalogueFork(conn, accounts);
   const published = await seedRenders(conn, accounts);
   return { accounts, scenes: sceneResult, lampStudies, renders: published };
 }

@@ -53,7 +53,7 @@ describe("demo studio seed", () => {
     // A dozen scenes with real histories, at least one fork, uploaded assets and published renders.
     expect(before.counts.scenes).toBeGreaterThanOrEqual(12);
     expect(before.counts.versions).toBeGreaterThanOrEqual(2 * before.counts.scenes);
-    expect(before.scenes.some((s) => s.forkedFromVersionId !== null)).toBe(true);
+    expect(before.scenes.filter((s) => s.forkedFromVersionId !== null).length).toBeGreaterThanOrEqual(2);
     expect(before.counts.assets).toBeGreaterThanOrEqual(2);
     const done = before.renders.filter((r) => r.status === "done");
     expect(done.length).toBeGreaterThanOrEqual(3);
