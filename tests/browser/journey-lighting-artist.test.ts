@@ -88,13 +88,22 @@ describe("journey: a lighting artist blocks in a scene", () => {
   it("publishes the converged picture of the saved version to the project's library", async () => {
     const { page } = artist;
     await expect.poll(() => page.getByTestId("progress").innerText(), { timeout: 180_000 }).toMatch(/Reached the target/);
-    await page.getByRole("button", { name: /^Publish/ }).click();
-    await expect.poll(async () => (await db().select().from(renders).where(eq(renders.sceneId, sceneId))).length, { timeout: 60_000 }).toBe(1);
-    const [render] = await db().select().from(renders).where(eq(renders.sceneId, sceneId));
+    await page.getByTestId("publish-open").click();
+    await page.getByLabel(/^Title/).fill("Desk corner, lamp and window balanced");
+    await page.getByTestId("publish-render").click();
+    const result = page.getByTestId("publish-result");
+    await result.waitFor({ timeout: 60_000 });
+    const hash = await result.getAttribute("data-accumulation-hash");
+    await screenshot(page, "journey-lighting-artist-published");
+    // What she came for: the library holds the picture of exactly the version she saved, at the spp she watched.
+    const rows = await db().select().from(renders).where(eq(renders.sceneId, sceneId));
+    expect(rows).toHaveLength(1);
     const head = await getHead(sceneId);
-    expect(render!.versionId).toBe(head!.id);
-    expect(render!.status).toBe("done");
-    expect(render!.spp).toBe(16);
+    expect(rows[0]!.versionId).toBe(head!.id);
+    expect(rows[0]!.status).toBe("done");
+    expect(rows[0]!.spp).toBe(16);
+    expect(rows[0]!.title).toBe("Desk corner, lamp and window balanced");
+    expect(rows[0]!.accumulationHash).toBe(hash);
     await page.goto(new URL(`/projects/${projectId}/renders`, page.url()).toString());
     await expect.poll(() => page.getByTestId("render-row").count()).toBe(1);
     await screenshot(page, "journey-lighting-artist-library");
