@@ -5,8 +5,11 @@
  * Import only in the browser.
  */
 import { proxy, wrap, type Remote } from "comlink";
+import { renderKey } from "./workspace-render-key";
 import { createStore, type StoreApi } from "zustand/vanilla";
-import type { MeterReading, SessionApi, SessionFrame, SessionStatus } from "./workspace-session.worker";
+import type { Display } from "@tracer/film/display";
+import type { MeterReading, PublishPackage, SessionApi, SessionFrame, SessionStatus } from "./workspace-session.worker";
+export { renderKey } from "./workspace-render-key";
 
 export type PreviewState = {
   status: SessionStatus | "idle";
@@ -25,21 +28,22 @@ export type PreviewState = {
   stopReason: SessionFrame["stopReason"];
   error: string | null;
   workers: number;
+  /** Passes held by every pixel of the pass-aligned accumulation (publishable when ≥ 1 at scale 1). */
+  settledSpp: number;
+  /** Hash of the finished accumulation (set when the run stops), else null. */
+  accumulationHash: string | null;
+  scale: number;
+  /** renderKey of the scene the latest start() asked for: tells which scene the accumulation belongs to. */
+  runKey: string;
 };
 
-export type { MeterReading };
+export type { MeterReading, PublishPackage };
 
 export const initialPreview: PreviewState = {
   status: "idle", runId: 0, width: 0, height: 0, groupNames: [], groups: null, pixelsVersion: 0, sppDone: 0, sppTarget: 0,
   samplesPerSecond: 0, elapsedMs: 0, relStdError: Infinity, stopReason: null, error: null, workers: 0,
+  settledSpp: 0, accumulationHash: null, scale: 1, runKey: "",
 };
-
-/** The part of a scene that changes the rendered radiance (everything but the display block). */
-export function renderKey(scene: unknown): string {
-  if (!scene || typeof scene !== "object") return "";
-  const { display: _display, ...rest } = scene as Record<string, unknown>;
-  return JSON.stringify(rest);
-}
 
 /** Time left to reach the target spp at the current rate; null before there is a rate. */
 export function etaMs(p: Pick<PreviewState, "sppDone" | "sppTarget" | "elapsedMs">): number | null {
@@ -59,7 +63,10 @@ export class PreviewRenderer {
   }
 
   start(scene: unknown, opts: { scale: number; noiseTarget: number | null }): void {
-    this.store.setState({ status: "compiling", error: null, stopReason: null, sppDone: 0, relStdError: Infinity, samplesPerSecond: 0, elapsedMs: 0 });
+    this.store.setState({
+      status: "compiling", error: null, stopReason: null, sppDone: 0, relStdError: Infinity, samplesPerSecond: 0, elapsedMs: 0,
+      settledSpp: 0, accumulationHash: null, scale: opts.scale, runKey: renderKey(scene),
+    });
     void this.api
       .start(scene, { ...opts, assetBase: this.assetBase }, proxy((f: SessionFrame) => this.onFrame(f)))
       .catch((e: unknown) => this.store.setState({ status: "error", error: e instanceof Error ? e.message : String(e) }));
@@ -86,6 +93,9 @@ export class PreviewRenderer {
       stopReason: f.stopReason,
       error: f.error,
       workers: f.workers,
+      settledSpp: f.settledSpp,
+      accumulationHash: f.accumulationHash,
+      scale: f.scale,
     });
   }
 
@@ -105,6 +115,11 @@ export class PreviewRenderer {
 
   meter(px: number, py: number): Promise<MeterReading | null> {
     return this.api.meter(px, py);
+  }
+
+  /** The current accumulation as publishable files, built in the coordinator worker; null if `scene` is not what it renders at full size. */
+  publishPackage(scene: unknown, display: Display): Promise<PublishPackage | null> {
+    return this.api.publishPackage(renderKey(scene), display);
   }
 
   dispose(): void {

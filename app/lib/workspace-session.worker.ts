@@ -8,12 +8,25 @@
 import { expose, transfer } from "comlink";
 import { compileScene } from "@tracer/compile/compile";
 import type { CompiledScene } from "@tracer/compile/types";
-import { addUnit, createAccumulation, relativeStdError, resolveGroup, type Accumulation, type RenderUnit } from "@tracer/film/accumulate";
+import {
+  accumulationHash,
+  addUnit,
+  createAccumulation,
+  relativeStdError,
+  resolveGroup,
+  type Accumulation,
+  type RenderUnit,
+  type UnitResult,
+} from "@tracer/film/accumulate";
+import type { Display } from "@tracer/film/display";
 import { measureIrradiance } from "@tracer/render/meter";
 import { uniqueAssetRefs } from "@tracer/scene/assets";
 import { validateScene } from "@tracer/scene/validate";
 import { createBrowserPool } from "@tracer/workers/browser-pool";
 import type { WorkerPool } from "@tracer/workers/pool";
+import { TRACER_VERSION } from "@tracer/version";
+import { renderOutputs, type RenderOutputs } from "./render-outputs";
+import { renderKey } from "./workspace-render-key";
 
 export type SessionStatus = "compiling" | "rendering" | "paused" | "done" | "stopped" | "error";
 
@@ -33,6 +46,24 @@ export type SessionFrame = {
   stopReason: "target" | "noise" | null;
   error: string | null;
   workers: number;
+  /** Passes every pixel holds in the pass-aligned accumulation (what a publish would keep); 0 = none yet. */
+  settledSpp: number;
+  /** Hash of that accumulation once the run stopped (target or noise), else null. */
+  accumulationHash: string | null;
+  /** Resolution scale the run renders at. */
+  scale: number;
+};
+
+/** A pass-aligned accumulation turned into files, with the facts a publish records beside them. */
+export type PublishPackage = {
+  files: RenderOutputs;
+  spp: number;
+  seed: number;
+  integrator: string;
+  tracerVersion: string;
+  renderMs: number;
+  samplesPerSecond: number;
+  groupNames: string[];
 };
 
 export type StartOptions = {
@@ -72,6 +103,19 @@ type Run = {
   samples: number;
   dirty: boolean;
   stopReason: SessionFrame["stopReason"];
+  scale: number;
+  /** The scene's render-relevant content, to tell which scene an accumulation belongs to. */
+  key: string;
+  integrator: string;
+  /**
+   * Exactly passes [0, settledSpp) of every pixel: rounds are added here only once all their tiles arrived,
+   * so a publish (and its hash) never mixes pixels with different pass counts.
+   */
+  settled: Accumulation;
+  settledSpp: number;
+  settledMs: number;
+  /** Results of rounds still missing tiles, by the round's first pass. */
+  pending: Map<number, { passEnd: number; results: UnitResult[] }>;
 };
 
 let pool: WorkerPool | null = null;
@@ -136,6 +180,22 @@ function cancelRun(run: Run): void {
   wake(run);
 }
 
+/** Keeps a unit until its whole round is in, then moves every completed leading round into `settled`. */
+function settle(run: Run, r: UnitResult): void {
+  const start = r.unit.passStart;
+  let round = run.pending.get(start);
+  if (!round) run.pending.set(start, (round = { passEnd: r.unit.passEnd, results: [] }));
+  round.results.push(r);
+  for (;;) {
+    const next = run.pending.get(run.settledSpp);
+    if (!next || next.results.length < run.tiles.length) break;
+    for (const u of next.results) addUnit(run.settled, u);
+    run.pending.delete(run.settledSpp);
+    run.settledSpp = next.passEnd;
+    run.settledMs = elapsed(run);
+  }
+}
+
 const api = {
   async start(sceneJson: unknown, opts: StartOptions, onFrame: (f: SessionFrame) => void): Promise<void> {
     const id = ++runCounter;
@@ -144,15 +204,18 @@ const api = {
     const base: SessionFrame = {
       runId: id, status: "compiling", width: 0, height: 0, groupNames: [], groups: null, sppDone: 0, sppTarget: 0,
       samplesPerSecond: 0, elapsedMs: 0, relStdError: Infinity, stopReason: null, error: null, workers,
+      settledSpp: 0, accumulationHash: null, scale: opts.scale,
     };
     const fail = (message: string) => onFrame({ ...base, status: "error", error: message });
     onFrame(base);
 
     let compiled: CompiledScene;
+    let integrator = "";
     try {
       const v = validateScene(sceneJson);
       if (!v.ok) return fail(v.issues.map((i) => `${i.path}: ${i.message}`).join("\n"));
       const scene = scaledScene(v.scene, opts.scale);
+      integrator = v.scene.render.integrator;
       const assets = await loadAssets(uniqueAssetRefs(scene), opts.assetBase);
       if (id !== runCounter) return;
       compiled = compileScene(scene, assets);
@@ -171,6 +234,8 @@ const api = {
       id, compiled, tiles, acc: createAccumulation(compiled.width, compiled.height, compiled.groupNames.length),
       tilePasses: new Int32Array(tiles.length), target: compiled.spp, noiseTarget: opts.noiseTarget, paused: false,
       cancelled: false, waiters: [], started: performance.now(), pausedAt: 0, pausedTotal: 0, samples: 0, dirty: false, stopReason: null,
+      scale: opts.scale, key: renderKey(sceneJson), integrator,
+      settled: createAccumulation(compiled.width, compiled.height, compiled.groupNames.length), settledSpp: 0, settledMs: 0, pending: new Map(),
     };
     current = run;
 
@@ -180,7 +245,8 @@ const api = {
       const f: SessionFrame = {
         ...base, status, width: compiled.width, height: compiled.height, groupNames: compiled.groupNames, groups,
         sppDone: sppDone(run), sppTarget: run.target, samplesPerSecond: ms > 0 ? (run.samples / ms) * 1000 : 0, elapsedMs: ms,
-        relStdError: relativeStdError(run.acc), stopReason: run.stopReason,
+        relStdError: relativeStdError(run.acc), stopReason: run.stopReason, settledSpp: run.settledSpp,
+        accumulationHash: status === "done" && run.settledSpp > 0 ? accumulationHash(run.settled) : null,
       };
       run.dirty = false;
       onFrame(groups ? transfer(f, groups.map((g) => g.buffer as ArrayBuffer)) : f);
@@ -228,6 +294,7 @@ const api = {
           run.samples += r.samples * (r.unit.x1 - r.unit.x0) * (r.unit.y1 - r.unit.y0);
           const ti = tiles.findIndex((t) => t.x0 === r.unit.x0 && t.y0 === r.unit.y0);
           if (ti >= 0) run.tilePasses[ti] = Math.max(run.tilePasses[ti]!, r.unit.passEnd);
+          settle(run, r);
           run.dirty = true;
         },
       });
@@ -264,6 +331,29 @@ const api = {
 
   setNoiseTarget(t: number | null): void {
     if (current) current.noiseTarget = t;
+  },
+
+  /**
+   * The files of the pass-aligned accumulation, built here so the page never runs tracer code; null when the
+   * current run is not of `expectedKey`'s scene at full resolution or has no complete pass yet.
+   */
+  publishPackage(expectedKey: string, display: Display): PublishPackage | null {
+    const r = current;
+    if (!r || r.cancelled || r.id !== runCounter || r.scale !== 1 || r.key !== expectedKey || r.settledSpp < 1) return null;
+    const files = renderOutputs(r.settled, display, r.compiled.groupNames);
+    const pixels = r.compiled.width * r.compiled.height;
+    const pkg: PublishPackage = {
+      files,
+      spp: r.settledSpp,
+      seed: r.compiled.seed,
+      integrator: r.integrator,
+      tracerVersion: TRACER_VERSION,
+      renderMs: r.settledMs,
+      samplesPerSecond: r.settledMs > 0 ? (r.settledSpp * pixels * 1000) / r.settledMs : 0,
+      groupNames: [...r.compiled.groupNames],
+    };
+    const buffers = new Set([files.pfm, files.hdr, files.png, files.thumb, files.state, ...Object.values(files.groups)].map((b) => b.buffer as ArrayBuffer));
+    return transfer(pkg, [...buffers]);
   },
 
   /** Irradiance at the surface under pixel (px, py) of the current run's image. */

@@ -7,6 +7,7 @@ import { useStore } from "zustand";
 import { useWorkspaceStore, WorkspaceProvider } from "~/components/workspace/context";
 import { LightBalancePanel, LookPanel, MeasurePanel } from "~/components/workspace/light-panels";
 import { PreviewCanvas, PreviewProvider, ProgressStrip } from "~/components/workspace/preview";
+import { PublishControls } from "~/components/workspace/publish-controls";
 import { SaveControls, type SaveResult } from "~/components/workspace/save-controls";
 import { SceneForms } from "~/components/workspace/scene-forms";
 import { IssueList } from "~/components/workspace/issue-list";
@@ -383,6 +384,7 @@ function WorkspaceHeader({
         <Link to={`/projects/${projectId}/scenes/${sceneId}/history`} className="px-2 text-xs text-ink-muted hover:text-ink">
           History
         </Link>
+        {role !== "viewer" ? <PublishControls projectId={projectId} sceneId={sceneId} /> : null}
         {canEdit ? (
           <SaveControls fetcher={fetcher} onSaved={onSaved} />
         ) : (

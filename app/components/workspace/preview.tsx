@@ -18,6 +18,7 @@ const PreviewContext = createContext<PreviewCtx>({ renderer: null, image: null, 
 const EMPTY_PREVIEW: PreviewState = {
   status: "idle", runId: 0, width: 0, height: 0, groupNames: [], groups: null, pixelsVersion: 0, sppDone: 0, sppTarget: 0,
   samplesPerSecond: 0, elapsedMs: 0, relStdError: Infinity, stopReason: null, error: null, workers: 0,
+  settledSpp: 0, accumulationHash: null, scale: 1, runKey: "",
 };
 const fallbackStore = { getState: () => EMPTY_PREVIEW, getInitialState: () => EMPTY_PREVIEW, subscribe: () => () => {}, setState: () => {} };
 
@@ -54,6 +55,7 @@ export function PreviewCanvas() {
   const view = useWorkspace((s) => s.view);
   const status = usePreview((s) => s.status);
   const error = usePreview((s) => s.error);
+  const hash = usePreview((s) => s.accumulationHash);
   const [focusPx, setFocusPx] = useState<[number, number] | null>(null);
   // The picture is scaled to fit the panel (up or down) keeping its aspect ratio.
   const boxRef = useRef<HTMLDivElement>(null);
@@ -112,7 +114,7 @@ export function PreviewCanvas() {
   };
 
   return (
-    <div ref={boxRef} className="relative flex min-h-0 flex-1 items-center justify-center overflow-hidden bg-[#0e0e0f] p-2" data-testid="preview">
+    <div ref={boxRef} className="relative flex min-h-0 flex-1 items-center justify-center overflow-hidden bg-[#0e0e0f] p-2" data-testid="preview" data-accumulation-hash={hash ?? undefined}>
       {image ? (
         <div className="relative" style={fit ? { width: fit[0], height: fit[1] } : undefined}>
           <canvas
