@@ -72,8 +72,8 @@ async function openWorkspace(page: Page, path: string) {
 const rendersOf = async (projectId: string) => db().select({ id: renders.id }).from(renders).where(eq(renders.projectId, projectId));
 
 /** The same version rendered in Node's worker pool: hash of exactly `spp` passes of every pixel. */
-async function nodeHash(spp: number): Promise<string> {
-  const checked = validateScene(scene);
+async function nodeHash(spp: number, json: unknown = scene): Promise<string> {
+  const checked = validateScene(json);
   if (!checked.ok) throw new Error(JSON.stringify(checked.issues));
   const pool = createNodePool(2);
   try {
@@ -225,5 +225,35 @@ describe("publishing a render from the workspace", () => {
     } finally {
       await c.close();
     }
+  });
+
+  it("a paused render publishes exactly the passes every pixel holds, equal to Node's render of that many", async () => {
+    const { page } = e;
+    const long = { ...scene, name: "Osier lamp, long run", render: { ...scene.render, spp: 2048 } };
+    const created = await createScene({ projectId, name: "Osier lamp long run", scene: long, authorId: editor.id, message: "Long run" });
+    if (!created.ok) throw new Error(JSON.stringify(created.issues));
+    await openWorkspace(page, `/projects/${projectId}/scenes/${created.scene.id}`);
+    await expect.poll(async () => Number(await page.getByTestId("spp-done").innerText()), { timeout: 120_000 }).toBeGreaterThanOrEqual(6);
+    await page.getByRole("button", { name: "Pause" }).click();
+    await expect.poll(() => page.getByTestId("progress-status").innerText()).toBe("Paused");
+    await page.getByTestId("publish-open").click();
+    await expect.poll(() => page.getByTestId("publish-render").isDisabled()).toBe(false);
+    await page.getByTestId("publish-render").click();
+    const result = page.getByTestId("publish-result");
+    await result.waitFor({ timeout: 60_000 });
+    const spp = Number(/Published at (\d+) spp/.exec(await result.innerText())![1]);
+    expect(spp).toBeGreaterThanOrEqual(1);
+    expect(spp).toBeLessThan(2048);
+    console.info(`paused publish: ${spp} spp held by every pixel (preview showed ≥ 6 when paused)`);
+    const renderId = new URL((await result.getByRole("link").getAttribute("href"))!, "http://x").searchParams.get("render")!;
+    const stored = await getRender(renderId);
+    expect(stored!.spp).toBe(spp);
+    const bytes = await page.evaluate(async (url) => Array.from(new Uint8Array(await (await fetch(url)).arrayBuffer())), `/projects/${projectId}/renders/${renderId}/files/state`);
+    const acc = deserializeAccumulation(new Uint8Array(bytes));
+    expect(passesOf(acc)).toBe(spp); // every pixel holds the same passes, though tiles were mid-round when paused
+    const expected = await nodeHash(spp, long);
+    expect(accumulationHash(acc)).toBe(expected);
+    expect(stored!.accumulationHash).toBe(expected);
+    expect((await rendersOf(projectId)).length).toBe(2);
   });
 });
