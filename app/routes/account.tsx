@@ -14,6 +14,7 @@ import { EmailTakenError, getUserById, setUserPassword, updateUserEmail, updateU
 import { verifyPassword } from "~/services/password.server";
 import { requireUser } from "~/services/permissions.server";
 import type { Route } from "./+types/account";
+import { smallForm } from "~/services/body-limit.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Account and tokens · Tracewell" }];
 
@@ -84,7 +85,7 @@ async function logForProjects(userId: string, kind: string, detail: Record<strin
 export async function action({ request }: Route.ActionArgs) {
   const actor = await requireUser(request);
   const me = actor.user;
-  const raw = formObject(await request.formData());
+  const raw = formObject(await smallForm(request));
   const parsed = AccountActionSchema.safeParse(raw);
   const fail = (errors: Record<string, string>, status = 400) => data<Result>({ ok: false, intent: raw.intent ?? "", errors }, { status });
   if (!parsed.success) return fail(fieldErrors(parsed.error));

@@ -10,13 +10,14 @@ import { createPasswordReset } from "~/models/password-reset.server";
 import { getUserByEmail } from "~/models/user.server";
 import { sendPasswordResetMail } from "~/services/account-mail.server";
 import type { Route } from "./+types/forgot-password";
+import { smallForm } from "~/services/body-limit.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Reset your password · Tracewell" }];
 
 const Schema = z.object({ email: EmailSchema });
 
 export async function action({ request }: Route.ActionArgs) {
-  const raw = formObject(await request.formData());
+  const raw = formObject(await smallForm(request));
   const parsed = Schema.safeParse(raw);
   if (!parsed.success) return data({ sent: false as const, errors: fieldErrors(parsed.error), email: raw.email ?? "" }, { status: 400 });
   const user = await getUserByEmail(parsed.data.email);

@@ -12,6 +12,7 @@ import { createUser, EmailTakenError, getUserByEmail } from "~/models/user.serve
 import { getActor } from "~/services/permissions.server";
 import { startSession } from "~/services/session.server";
 import type { Route } from "./+types/invitations.$token";
+import { smallForm } from "~/services/body-limit.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Invitation · Tracewell" }];
 
@@ -36,7 +37,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 }
 
 export async function action({ request, params }: Route.ActionArgs) {
-  const raw = formObject(await request.formData());
+  const raw = formObject(await smallForm(request));
   const parsed = ActionSchema.safeParse(raw);
   if (!parsed.success) return data({ errors: fieldErrors(parsed.error), name: raw.name ?? "" }, { status: 400 });
   const invitation = await findOpenInvitation(params.token);

@@ -6,6 +6,7 @@ import { authenticator, SignInError, ThrottledError } from "~/services/auth.serv
 import { getActor } from "~/services/permissions.server";
 import { startSession } from "~/services/session.server";
 import type { Route } from "./+types/login";
+import { smallFormRequest } from "~/services/body-limit.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Sign in · Tracewell" }];
 
@@ -17,7 +18,8 @@ export async function loader({ request }: Route.LoaderArgs) {
   return { next, reset: url.searchParams.get("reset") === "done" };
 }
 
-export async function action({ request }: Route.ActionArgs) {
+export async function action({ request: incoming }: Route.ActionArgs) {
+  const request = await smallFormRequest(incoming);
   // The strategy reads its own clone of the body; this clone is for the fields it does not care about.
   const form = await request.clone().formData();
   const email = String(form.get("email") ?? "").slice(0, 320);

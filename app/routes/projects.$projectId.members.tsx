@@ -14,6 +14,7 @@ import { deleteProject, getProject, renameProject } from "~/models/project.serve
 import { sendInvitationMail } from "~/services/account-mail.server";
 import { requireAccess } from "~/services/permissions.server";
 import type { Route } from "./+types/projects.$projectId.members";
+import { smallForm } from "~/services/body-limit.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Members · Tracewell" }];
 
@@ -59,7 +60,7 @@ const LAST_OWNER = "A project always keeps at least one owner: make someone else
 
 export async function action({ request, params }: Route.ActionArgs) {
   const projectId = params.projectId;
-  const raw = formObject(await request.formData());
+  const raw = formObject(await smallForm(request));
   // Leaving needs only membership; everything else is an owner's job. Checked before the form is read for meaning.
   const access = await requireAccess(request, { projectId }, abilityFor(raw.intent));
   const me = access.actor.user;

@@ -11,6 +11,7 @@ import { db } from "~/services/db.server";
 import { requireAccess, roleAllows } from "~/services/permissions.server";
 import { submitPoolRender } from "~/services/pool-submit.server";
 import type { Route } from "./+types/projects.$projectId.pool";
+import { smallForm } from "~/services/body-limit.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Render pool · Tracewell" }];
 
@@ -51,7 +52,7 @@ const QueueFormSchema = z.object({
 });
 
 export async function action({ request, params }: Route.ActionArgs) {
-  const form = await request.formData();
+  const form = await smallForm(request);
   const intent = form.get("intent");
   if (intent === "cancel") {
     const renderId = String(form.get("renderId") ?? "");

@@ -22,6 +22,17 @@ import { actorUserId, notFound, requireInProject } from "~/services/project-acce
 import { createWorkspaceStore, sceneToText, type WorkspaceStore } from "~/stores/workspace";
 import { validateScene } from "@tracer/scene/validate";
 import type { Route } from "./+types/projects.$projectId.scenes.$sceneId";
+import { BodyTooLargeError, formDataLimited } from "~/services/body-limit.server";
+
+// A saved scene travels as form text; 16 MiB is far above any scene the limits allow, far below a flood.
+async function sceneForm(request: Request): Promise<FormData> {
+  try {
+    return await formDataLimited(request, 16 * 1024 * 1024);
+  } catch (e) {
+    if (e instanceof BodyTooLargeError) throw Response.json({ error: e.message }, { status: 413 });
+    throw e;
+  }
+}
 
 const SceneEditor = lazy(() => import("~/components/workspace/scene-editor.client"));
 
@@ -65,11 +76,16 @@ const SaveForm = z.object({
 
 export async function action({ request, params }: Route.ActionArgs): Promise<SaveResult> {
   const access = await requireInProject(request, params.projectId, { sceneId: params.sceneId }, "edit");
-  const form = SaveForm.safeParse(Object.fromEntries(await request.formData()));
+  const form = SaveForm.safeParse(Object.fromEntries(await sceneForm(request)));
   if (!form.success) {
     return { ok: false, kind: "invalid", issues: form.error.issues.map((i) => ({ path: i.path.join("."), message: i.message })) };
   }
   const { message, parentVersionId, sceneText } = form.data;
+  // The parent must be a version of this very scene: a foreign id would otherwise be diffed into the conflict view.
+  const claimedParent = await getVersion(parentVersionId);
+  if (!claimedParent || claimedParent.sceneId !== params.sceneId) {
+    return { ok: false, kind: "invalid", issues: [{ path: "parentVersionId", message: "is not a version of this scene" }] };
+  }
   const result = await saveVersion({ sceneId: params.sceneId, parentVersionId, scene: sceneText, message, authorId: actorUserId(access.actor) });
   if (result.ok) {
     await logActivity(access.projectId, actorUserId(access.actor), "scene.saved", { sceneId: params.sceneId, versionId: result.version.id, number: result.version.number });
@@ -78,7 +94,7 @@ export async function action({ request, params }: Route.ActionArgs): Promise<Sav
   if (result.reason === "invalid") return { ok: false, kind: "invalid", issues: result.issues };
   if (result.reason === "not_found") notFound();
   // Someone saved first: show what they changed and what you changed, each against the version you started from.
-  const parent = await getVersion(parentVersionId);
+  const parent = claimedParent;
   const mine = JSON.parse(sceneText) as unknown;
   const theirsLines = parent ? sceneDiffLines(diffScenes(parent.scene, result.head.scene)) : [];
   const mineLines = parent ? sceneDiffLines(diffScenes(parent.scene, mine)) : [];

@@ -6,6 +6,7 @@ import { fieldErrors, formObject } from "~/lib/form";
 import { createProject, listProjectsForUser } from "~/models/project.server";
 import { requireUser } from "~/services/permissions.server";
 import type { Route } from "./+types/projects._index";
+import { smallForm } from "~/services/body-limit.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Projects · Tracewell" }];
 
@@ -22,7 +23,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 
 export async function action({ request }: Route.ActionArgs) {
   const actor = await requireUser(request);
-  const raw = formObject(await request.formData());
+  const raw = formObject(await smallForm(request));
   const parsed = CreateProjectSchema.safeParse(raw);
   if (!parsed.success) return data({ errors: fieldErrors(parsed.error), values: { name: raw.name ?? "", description: raw.description ?? "" } }, { status: 400 });
   const project = await createProject({ ...parsed.data, ownerId: actor.user.id });

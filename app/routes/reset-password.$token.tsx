@@ -11,6 +11,7 @@ import { consumePasswordReset, findOpenReset } from "~/models/password-reset.ser
 import { listProjectsForUser } from "~/models/project.server";
 import { endSession } from "~/services/session.server";
 import type { Route } from "./+types/reset-password.$token";
+import { smallForm } from "~/services/body-limit.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Choose a new password · Tracewell" }];
 
@@ -27,7 +28,7 @@ export async function loader({ params }: Route.LoaderArgs) {
 }
 
 export async function action({ request, params }: Route.ActionArgs) {
-  const raw = formObject(await request.formData());
+  const raw = formObject(await smallForm(request));
   const parsed = Schema.safeParse(raw);
   if (!parsed.success) return data({ errors: fieldErrors(parsed.error) }, { status: 400 });
   const userId = await consumePasswordReset(params.token, parsed.data.password);

@@ -9,6 +9,7 @@ import { createUser, EmailTakenError } from "~/models/user.server";
 import { getActor } from "~/services/permissions.server";
 import { startSession } from "~/services/session.server";
 import type { Route } from "./+types/signup";
+import { smallForm } from "~/services/body-limit.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Create an account · Tracewell" }];
 
@@ -22,7 +23,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 }
 
 export async function action({ request }: Route.ActionArgs) {
-  const raw = formObject(await request.formData());
+  const raw = formObject(await smallForm(request));
   const parsed = SignUpSchema.safeParse(raw);
   const values = { name: raw.name ?? "", email: raw.email ?? "" };
   if (!parsed.success) return data({ errors: fieldErrors(parsed.error), values }, { status: 400 });

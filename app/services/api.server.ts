@@ -2,6 +2,7 @@
 // through the same permissions module as the pages, a per-token rate limit, cursors and ETags.
 import { z } from "zod";
 import { authorize, getActor, scopeAllows, type Ability, type Actor } from "~/services/permissions.server";
+import { BodyTooLargeError, readBodyLimited } from "./body-limit.server";
 
 export type ApiIssue = { path: string; message: string; line?: number; column?: number };
 
@@ -88,8 +89,14 @@ export async function parseJsonBody<T extends z.ZodType>(request: Request, schem
   }
   const declared = Number(request.headers.get("Content-Length") ?? "0");
   if (declared > MAX_BODY_BYTES) throw new ApiError(413, "body_too_large", `the body may be at most ${MAX_BODY_BYTES} bytes`);
-  const text = await request.text();
-  if (text.length > MAX_BODY_BYTES) throw new ApiError(413, "body_too_large", `the body may be at most ${MAX_BODY_BYTES} bytes`);
+  let text: string;
+  try {
+    // Read with the limit even when no length was declared, so an endless chunked body is cut off.
+    text = new TextDecoder().decode(await readBodyLimited(request, MAX_BODY_BYTES));
+  } catch (e) {
+    if (e instanceof BodyTooLargeError) throw new ApiError(413, "body_too_large", `the body may be at most ${MAX_BODY_BYTES} bytes`);
+    throw e;
+  }
   let raw: unknown;
   try {
     raw = JSON.parse(text);
