@@ -53,7 +53,10 @@ export async function loadSceneAssets(scene: Scene, assetUrl: (sha: string) => s
 export async function reproduceRender(input: ReproduceInput): Promise<ReproduceResult> {
   const checked = validateScene(input.scene);
   if (!checked.ok) throw new Error(`the version does not validate: ${checked.issues.map(formatIssue).join("; ")}`);
-  const scene: Scene = { ...checked.scene, render: { ...checked.scene.render, seed: input.seed, spp: input.spp } };
+  // A stored render of N spp holds the first N passes of the version's own sample pattern (the pattern is set by
+  // the scene's render.spp; a preview stopped early or a pool job of fewer passes is a prefix of it), so only
+  // the seed is taken from the render and the pass count decides how far to go.
+  const scene: Scene = { ...checked.scene, render: { ...checked.scene.render, seed: input.seed } };
   const assets = await loadSceneAssets(scene, input.assetUrl, input.signal);
   const compiled = compileScene(scene, assets);
   const { createBrowserPool } = await import("@tracer/workers/browser-pool");

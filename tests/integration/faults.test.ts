@@ -112,8 +112,10 @@ describe("the database restarted while requests and a pool render run", () => {
     let traffic = true;
     const loop = (async () => {
       while (traffic) {
-        const p = phase;
+        const startedIn = phase;
         const [h, a] = await Promise.all([probe(`${served.baseUrl}/healthz`), probe(`${served.baseUrl}/api/v1/projects/${project.id}`, auth)]);
+        // A request in flight while the phase changed overlapped the outage: it counts as "down".
+        const p = startedIn === phase ? startedIn : "down";
         probes.push({ phase: p, path: "/healthz", ...h }, { phase: p, path: "/api/v1/projects/:id", ...a });
         await new Promise((res) => setTimeout(res, 250));
       }
@@ -122,8 +124,8 @@ describe("the database restarted while requests and a pool render run", () => {
     await new Promise((res) => setTimeout(res, 1000));
     let recoveredAfter = -1;
     try {
-      await stopDatabase();
       phase = "down";
+      await stopDatabase();
       await new Promise((res) => setTimeout(res, 4000));
     } finally {
       await startDatabase();

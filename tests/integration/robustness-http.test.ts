@@ -153,7 +153,8 @@ describe("oversized request bodies", () => {
     const { scene } = await makeScene(project.id, owner.id);
     const r = await endlessPost(`/api/v1/scenes/${scene.id}/versions`, { authorization: `Bearer ${renderToken}`, "content-type": "application/json" }, 8 * API_BODY_LIMIT);
     expect(r.answeredEarly, `the server read ${r.sentBytes} bytes before answering`).toBe(true);
-    expect(r.status).toBe(413);
+    // 413, or the connection closed as the server refused the rest (the client may not get to read the answer).
+    expect([413, 0], r.body).toContain(r.status);
   });
 
   it("upload: a declared size over the asset limit is refused with 413 naming the limit, without reading the body", async () => {
@@ -175,8 +176,8 @@ describe("oversized request bodies", () => {
   it("forms: an endless chunked form post to the sign-in page is cut off, not read to the end", async () => {
     const r = await endlessPost("/login", { "content-type": "application/x-www-form-urlencoded" }, 64 * 1024 * 1024);
     expect(r.answeredEarly, `the server read ${r.sentBytes} bytes before answering`).toBe(true);
-    expect(r.status).toBeGreaterThanOrEqual(400);
-    expect(r.status).toBeLessThan(500);
+    // A 4xx, or the connection closed as the server refused the rest.
+    expect(r.status === 0 || (r.status >= 400 && r.status < 500), `status ${r.status}`).toBe(true);
   }, 300_000);
 
   it("the scene form refuses an oversized scene text by field, and the head stays put", async () => {
