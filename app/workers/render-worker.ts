@@ -137,6 +137,11 @@ async function main() {
   };
   process.on("SIGTERM", () => void shutdown("SIGTERM"));
   process.on("SIGINT", () => void shutdown("SIGINT"));
+  // While the database restarts, the queue's own polling can reject with nobody awaiting it. The worker must
+  // outlive the outage (its chunks are retried through the queue), so such rejections are logged, not fatal.
+  process.on("unhandledRejection", (err) => {
+    console.error(`[${name}] unhandled rejection (continuing):`, err instanceof Error ? err.message : err);
+  });
 }
 
 main().catch((err: unknown) => {
