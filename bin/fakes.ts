@@ -62,6 +62,8 @@ if (run.includes("smtp")) {
 }
 
 async function shutdown() {
+  // Closing waits for open keep-alive connections; never let that keep the fakes alive after Ctrl-C.
+  setTimeout(() => process.exit(0), 2000).unref();
   await Promise.allSettled(closers.map((c) => c()));
   process.exit(0);
 }
