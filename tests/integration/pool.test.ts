@@ -67,7 +67,8 @@ async function waitFor(renderId: string, until: (r: ApiRender) => boolean, seen?
   }
 }
 
-describe("render pool", () => {
+// Worker processes start, compile and render real chunks: on a busy 2-core machine that takes minutes, not seconds.
+describe("render pool", { timeout: 240_000 }, () => {
   it("splits a job over two worker processes and merges it bit-identically to one process", async () => {
     const size = { width: 32, height: 20, seed: 29 };
     const res = await api.post("/api/v1/renders", { versionId: ctx.versionId, spp: 16, chunkPasses: 2 });
