@@ -52,20 +52,31 @@ export type BossOptions = {
 };
 
 export async function startBoss(databaseUrl: string, opts: BossOptions = {}): Promise<PgBoss> {
-  const boss = new PgBoss({
-    connectionString: databaseUrl,
-    schema: "pgboss",
-    supervise: opts.supervise ?? false,
-    schedule: false,
-    max: opts.max ?? 4,
-    ...(opts.maintenanceIntervalSeconds ? { maintenanceIntervalSeconds: opts.maintenanceIntervalSeconds } : {}),
-  });
-  boss.on("error", (err: Error) => console.error("pg-boss:", err.message));
-  await boss.start();
   const names = queueNames(queueSettings().RENDER_POOL);
-  await boss.createQueue(names.chunk, { name: names.chunk, policy: "standard" });
-  await boss.createQueue(names.merge, { name: names.merge, policy: "standard" });
-  return boss;
+  // Several processes starting at once (workers, the app) race to create the queue's schema and queues;
+  // PostgreSQL may then abort one of them with a deadlock. That loser simply tries again with a fresh client.
+  for (let attempt = 1; ; attempt++) {
+    const boss = new PgBoss({
+      connectionString: databaseUrl,
+      schema: "pgboss",
+      supervise: opts.supervise ?? false,
+      schedule: false,
+      max: opts.max ?? 4,
+      ...(opts.maintenanceIntervalSeconds ? { maintenanceIntervalSeconds: opts.maintenanceIntervalSeconds } : {}),
+    });
+    boss.on("error", (err: Error) => console.error("pg-boss:", err.message));
+    try {
+      await boss.start();
+      await boss.createQueue(names.chunk, { name: names.chunk, policy: "standard" });
+      await boss.createQueue(names.merge, { name: names.merge, policy: "standard" });
+      return boss;
+    } catch (err) {
+      await boss.stop({ graceful: false, wait: true }).catch(() => undefined);
+      const transient = err instanceof Error && /deadlock detected|duplicate key|already exists/i.test(err.message);
+      if (!transient || attempt >= 5) throw err;
+      await new Promise((r) => setTimeout(r, 200 * attempt + Math.floor(Math.random() * 200)));
+    }
+  }
 }
 
 export async function enqueueChunks(boss: PgBoss, renderId: string, indices: readonly number[]): Promise<void> {
