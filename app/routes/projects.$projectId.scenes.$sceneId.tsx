@@ -22,17 +22,10 @@ import { actorUserId, notFound, requireInProject } from "~/services/project-acce
 import { createWorkspaceStore, sceneToText, type WorkspaceStore } from "~/stores/workspace";
 import { validateScene } from "@tracer/scene/validate";
 import type { Route } from "./+types/projects.$projectId.scenes.$sceneId";
-import { BodyTooLargeError, formDataLimited } from "~/services/body-limit.server";
+import { pageForm } from "~/services/body-limit.server";
 
 // A saved scene travels as form text; 16 MiB is far above any scene the limits allow, far below a flood.
-async function sceneForm(request: Request): Promise<FormData> {
-  try {
-    return await formDataLimited(request, 16 * 1024 * 1024);
-  } catch (e) {
-    if (e instanceof BodyTooLargeError) throw Response.json({ error: e.message }, { status: 413 });
-    throw e;
-  }
-}
+const SCENE_FORM_LIMIT = 16 * 1024 * 1024;
 
 const SceneEditor = lazy(() => import("~/components/workspace/scene-editor.client"));
 
@@ -76,7 +69,7 @@ const SaveForm = z.object({
 
 export async function action({ request, params }: Route.ActionArgs): Promise<SaveResult> {
   const access = await requireInProject(request, params.projectId, { sceneId: params.sceneId }, "edit");
-  const form = SaveForm.safeParse(Object.fromEntries(await sceneForm(request)));
+  const form = SaveForm.safeParse(Object.fromEntries(await pageForm(request, SCENE_FORM_LIMIT)));
   if (!form.success) {
     return { ok: false, kind: "invalid", issues: form.error.issues.map((i) => ({ path: i.path.join("."), message: i.message })) };
   }

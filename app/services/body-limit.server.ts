@@ -39,14 +39,25 @@ export async function formDataLimited(request: Request, limit: number): Promise<
   return new Response(new Blob([bytes.slice().buffer as ArrayBuffer]), { headers: { "content-type": request.headers.get("content-type") ?? "" } }).formData();
 }
 
-/** Ordinary page forms (a few ids and a message): refused beyond 64 KiB. */
-export async function smallForm(request: Request): Promise<FormData> {
+/** The body within `limit` bytes, or a 413 answer naming the limit thrown for the route to return. */
+async function bodyOr413(request: Request, limit: number): Promise<Uint8Array> {
   try {
-    return await formDataLimited(request, 64 * 1024);
+    return await readBodyLimited(request, limit);
   } catch (e) {
     if (e instanceof BodyTooLargeError) throw Response.json({ error: e.message }, { status: 413 });
     throw e;
   }
+}
+
+/** A page form parsed from at most `limit` bytes; beyond that the route answers 413. */
+export async function pageForm(request: Request, limit: number): Promise<FormData> {
+  const bytes = await bodyOr413(request, limit);
+  return new Response(new Blob([bytes.slice().buffer as ArrayBuffer]), { headers: { "content-type": request.headers.get("content-type") ?? "" } }).formData();
+}
+
+/** Ordinary page forms (a few ids and a message): refused beyond 64 KiB. */
+export async function smallForm(request: Request): Promise<FormData> {
+  return pageForm(request, 64 * 1024);
 }
 
 /**
@@ -54,12 +65,6 @@ export async function smallForm(request: Request): Promise<FormData> {
  * the body itself (the sign-in strategy): it then sees at most 64 KiB, never an endless stream.
  */
 export async function smallFormRequest(request: Request): Promise<Request> {
-  let bytes: Uint8Array;
-  try {
-    bytes = await readBodyLimited(request, 64 * 1024);
-  } catch (e) {
-    if (e instanceof BodyTooLargeError) throw Response.json({ error: e.message }, { status: 413 });
-    throw e;
-  }
+  const bytes = await bodyOr413(request, 64 * 1024);
   return new Request(request.url, { method: request.method, headers: request.headers, body: bytes.slice().buffer as ArrayBuffer });
 }
