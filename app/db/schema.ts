@@ -254,6 +254,35 @@ export const assets = pgTable(
   (t) => [primaryKey({ columns: [t.projectId, t.sha256] })],
 );
 
+// ---------- staged uploads ----------
+// A large file travels in steps: the browser declares what it will send (a row here, "pending"), streams
+// each file to a staging key, then asks to finish; only then does a render or asset appear. A pending row
+// that is never finished is swept (marked "failed", its staged objects deleted) after a while.
+export const uploadKind = pgEnum("upload_kind", ["render", "asset"]);
+export const uploadStatus = pgEnum("upload_status", ["pending", "finished", "failed"]);
+
+export const uploads = pgTable(
+  "uploads",
+  {
+    id: uuid("id").primaryKey().defaultRandom(),
+    projectId: uuid("project_id").notNull().references(() => projects.id, { onDelete: "cascade" }),
+    kind: uploadKind("kind").notNull(),
+    status: uploadStatus("status").notNull().default("pending"),
+    // What the browser declared when it started: the files (slot, name, bytes, sha256) and, for a render,
+    // its scene and metadata. Checked against limits before any byte is accepted.
+    plan: jsonb("plan").$type<Record<string, unknown>>().notNull(),
+    // What actually arrived, per slot (bytes counted and SHA-256 computed while streaming); merged per file.
+    received: jsonb("received").$type<Record<string, unknown>>().notNull().default({}),
+    // The render id or asset sha256 it became.
+    resultId: text("result_id"),
+    error: text("error"),
+    createdBy: uuid("created_by").references(() => users.id, { onDelete: "set null" }),
+    createdAt: createdAt(),
+    finishedAt: timestamp("finished_at", { withTimezone: true }),
+  },
+  (t) => [index("uploads_status_idx").on(t.status, t.createdAt), index("uploads_project_idx").on(t.projectId)],
+);
+
 // ---------- share links ----------
 export const shareLinks = pgTable(
   "share_links",
