@@ -5,6 +5,9 @@ import { randomUUID } from "node:crypto";
 import { and, asc, count, desc, eq, gte, inArray, lte, sql, type SQL } from "drizzle-orm";
 import { z } from "zod";
 import { renders, scenes, sceneVersions, users, type RenderFiles } from "~/db/schema";
+import { getScene, getVersion } from "~/models/scene.server";
+import type { Scene } from "@tracer/scene/schema";
+import { validateScene } from "@tracer/scene/validate";
 import { db } from "~/services/db.server";
 import { deleteRenderFiles, storeRenderFiles, type RenderFileBytes } from "~/services/render-files.server";
 
@@ -146,37 +149,67 @@ export async function publishRender(input: PublishInput): Promise<RenderRow> {
   const files = await storeRenderFiles(id, input.files);
   try {
     return await db().transaction(async (tx) => {
-      const [row] = await tx
-        .insert(renders)
-        .values({
-          id,
-          projectId: input.projectId,
-          sceneId: input.sceneId,
-          versionId: input.meta.versionId,
-          source: input.source ?? "browser",
-          status: "done",
-          title: input.meta.title,
-          spp: input.meta.spp,
-          sppDone: input.meta.spp,
-          seed: input.meta.seed,
-          width: input.meta.width,
-          height: input.meta.height,
-          integrator: input.meta.integrator,
-          tracerVersion: input.meta.tracerVersion,
-          accumulationHash: input.meta.accumulationHash,
-          renderMs: Math.round(input.meta.renderMs),
-          samplesPerSecond: input.meta.samplesPerSecond,
-          files,
-          createdBy: input.createdBy,
-          finishedAt: new Date(),
-        })
-        .returning();
+      const [row] = await tx.insert(renders).values(publishedRenderValues(id, { ...input, files })).returning();
       return row!;
     });
   } catch (err) {
     await deleteRenderFiles(files);
     throw err;
   }
+}
+
+/** The row of a finished, published render whose files are already stored at `files`. */
+export function publishedRenderValues(
+  id: string,
+  input: Omit<PublishInput, "files"> & { files: RenderFiles },
+): typeof renders.$inferInsert {
+  return {
+    id,
+    projectId: input.projectId,
+    sceneId: input.sceneId,
+    versionId: input.meta.versionId,
+    source: input.source ?? "browser",
+    status: "done",
+    title: input.meta.title,
+    spp: input.meta.spp,
+    sppDone: input.meta.spp,
+    seed: input.meta.seed,
+    width: input.meta.width,
+    height: input.meta.height,
+    integrator: input.meta.integrator,
+    tracerVersion: input.meta.tracerVersion,
+    accumulationHash: input.meta.accumulationHash,
+    renderMs: Math.round(input.meta.renderMs),
+    samplesPerSecond: input.meta.samplesPerSecond,
+    files: input.files,
+    createdBy: input.createdBy,
+    finishedAt: new Date(),
+  };
+}
+
+export type PublishTargetCheck =
+  | { ok: true; sceneId: string; versionId: string; display: Scene["display"] }
+  | { ok: false; status: 400 | 404; error: string; field: string };
+
+/**
+ * Whether `meta` describes a render of a version of `sceneId` in `projectId`: the version is the scene's,
+ * still validates, and its image size and integrator are the ones claimed. Used before any byte is stored.
+ */
+export async function checkPublishTarget(projectId: string, sceneId: string, meta: PublishMetadata): Promise<PublishTargetCheck> {
+  const scene = isUuid(sceneId) ? await getScene(sceneId) : null;
+  if (!scene || scene.projectId !== projectId) return { ok: false, status: 404, error: "no such scene in this project", field: "sceneId" };
+  const version = await getVersion(meta.versionId);
+  if (!version || version.sceneId !== scene.id) return { ok: false, status: 400, error: "meta.versionId: not a version of this scene", field: "meta.versionId" };
+  const checked = validateScene(version.scene);
+  if (!checked.ok) return { ok: false, status: 400, error: "the version's scene no longer validates", field: "meta.versionId" };
+  const { image, render: settings, display } = checked.scene;
+  if (meta.width !== image.width || meta.height !== image.height) {
+    return { ok: false, status: 400, error: `meta.width/height: ${meta.width}×${meta.height} does not match the version's image ${image.width}×${image.height}`, field: "meta.width" };
+  }
+  if (meta.integrator !== settings.integrator) {
+    return { ok: false, status: 400, error: `meta.integrator: "${meta.integrator}" does not match the version's integrator "${settings.integrator}"`, field: "meta.integrator" };
+  }
+  return { ok: true, sceneId: scene.id, versionId: version.id, display };
 }
 
 export async function deleteRender(renderId: string): Promise<boolean> {

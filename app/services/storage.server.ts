@@ -1,14 +1,18 @@
 // Object storage for binary data (render buffers, assets, partial accumulations).
 // The same code talks to the local fake and to any S3-compatible store.
+import type { Readable } from "node:stream";
 import {
+  CopyObjectCommand,
   CreateBucketCommand,
   DeleteObjectCommand,
   GetObjectCommand,
   HeadBucketCommand,
   HeadObjectCommand,
+  ListObjectsV2Command,
   PutObjectCommand,
   S3Client,
 } from "@aws-sdk/client-s3";
+import { Upload } from "@aws-sdk/lib-storage";
 import { getSignedUrl } from "@aws-sdk/s3-request-presigner";
 import { getEnv } from "./env.server";
 
@@ -81,4 +85,68 @@ export async function storageReachable(): Promise<boolean> {
   } catch {
     return false;
   }
+}
+
+// ---------------------------------------------------------------------------------------------
+// streamed writes (large uploads never sit whole in the server's memory)
+
+/** Parts of a streamed upload: S3's minimum part size; at most two parts are in memory at once. */
+export const STREAM_PART_BYTES = 5 * 1024 * 1024;
+const STREAM_PARTS_IN_FLIGHT = 2;
+
+/**
+ * Write a stream to `key` as a multipart upload, so the object appears only once every part is stored: a
+ * stream that errors part-way (the sender gone, a byte limit crossed, the store refusing a part) leaves no
+ * object behind. Small streams (under one part) go as a single PUT, equally all-or-nothing.
+ */
+export async function putObjectStream(key: string, body: Readable, contentType = "application/octet-stream"): Promise<void> {
+  const upload = new Upload({
+    client: s3(),
+    params: { Bucket: bucket(), Key: key, Body: body, ContentType: contentType },
+    partSize: STREAM_PART_BYTES,
+    queueSize: STREAM_PARTS_IN_FLIGHT,
+    leavePartsOnError: false,
+  });
+  await upload.done();
+}
+
+/** Size of a stored object, or null when there is none. */
+export async function objectSize(key: string): Promise<number | null> {
+  try {
+    const res = await s3().send(new HeadObjectCommand({ Bucket: bucket(), Key: key }));
+    return res.ContentLength ?? 0;
+  } catch {
+    return null;
+  }
+}
+
+/** Server-side copy: the bytes never pass through this process. */
+export async function copyObject(fromKey: string, toKey: string, contentType?: string): Promise<void> {
+  await s3().send(
+    new CopyObjectCommand({
+      Bucket: bucket(),
+      Key: toKey,
+      CopySource: `${bucket()}/${fromKey.split("/").map(encodeURIComponent).join("/")}`,
+      ...(contentType ? { ContentType: contentType, MetadataDirective: "REPLACE" as const } : {}),
+    }),
+  );
+}
+
+/** Keys under a prefix (at most `max`, in key order). */
+export async function listKeys(prefix: string, max = 1000): Promise<string[]> {
+  const keys: string[] = [];
+  let token: string | undefined;
+  do {
+    const res = await s3().send(new ListObjectsV2Command({ Bucket: bucket(), Prefix: prefix, ContinuationToken: token, MaxKeys: Math.min(1000, max - keys.length) }));
+    for (const o of res.Contents ?? []) if (o.Key) keys.push(o.Key);
+    token = res.IsTruncated ? res.NextContinuationToken : undefined;
+  } while (token && keys.length < max);
+  return keys;
+}
+
+/** An object's bytes as a stream, for reading large objects piece by piece. */
+export async function getObjectStream(key: string): Promise<ReadableStream<Uint8Array>> {
+  const res = await s3().send(new GetObjectCommand({ Bucket: bucket(), Key: key }));
+  if (!res.Body) throw new Error(`object ${key} has no body`);
+  return res.Body.transformToWebStream() as ReadableStream<Uint8Array>;
 }
