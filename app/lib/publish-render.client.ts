@@ -1,14 +1,19 @@
-// Publishing a render from the browser: one multipart POST through XMLHttpRequest, because fetch cannot
-// report upload progress. The server stores every file before it records the render, so a failed or
-// cancelled upload publishes nothing.
+// Publishing a render from the browser as a staged upload (app/lib/upload.client.ts): the server checks the
+// metadata and every file's size before a byte is sent, each file then streams with progress, and the
+// render appears only when the server has verified all of them. A failed or cancelled upload publishes
+// nothing and its staged files are deleted.
 //
 //   const result = await publishRenderUpload({
 //     projectId, sceneId,
-//     meta: { versionId, title, spp, seed, width, height, integrator, tracerVersion, accumulationHash, renderMs, samplesPerSecond, groups },
+//     meta: { versionId, title, spp, seed, width, height, integrator, tracerVersion, accumulationHash, renderMs, samplesPerSecond },
 //     files: renderOutputs(acc, scene.display, compiled.groupNames),   // from ~/lib/render-outputs
 //   }, { onProgress: (p) => setProgress(p.fraction), signal });
 //   if (result.ok) navigate(result.render.url); else toast(result.error);
+//
+// publishForm builds the older one-request form (still accepted for small renders by
+// /projects/:id/renders/publish, e.g. from scripts).
 import type { RenderOutputs } from "./render-outputs";
+import { stagedUpload, type StagedFile, type UploadProgress } from "./upload.client";
 
 export type PublishMeta = {
   versionId: string;
@@ -24,13 +29,13 @@ export type PublishMeta = {
   samplesPerSecond: number;
 };
 
-export type PublishFiles = Pick<RenderOutputs, "pfm" | "png"> & Partial<Pick<RenderOutputs, "hdr" | "thumb" | "state" | "groups">>;
+export type PublishFiles = Pick<RenderOutputs, "pfm" | "png" | "thumb"> & Partial<Pick<RenderOutputs, "hdr" | "state" | "groups">>;
 
 export type PublishResult =
   | { ok: true; render: { id: string; accumulationHash: string; url: string } }
   | { ok: false; error: string; field?: string; status: number };
 
-export type UploadProgress = { loaded: number; total: number; fraction: number };
+export type { UploadProgress };
 
 function blob(bytes: Uint8Array, type: string): Blob {
   return new Blob([bytes.slice().buffer as ArrayBuffer], { type });
@@ -50,29 +55,27 @@ export function publishForm(input: { sceneId: string; meta: PublishMeta; files: 
   return form;
 }
 
-export function publishRenderUpload(
+/** The files of a render as staged-upload slots (names as they are stored). */
+export function publishFiles(files: PublishFiles): StagedFile[] {
+  const out: StagedFile[] = [
+    { slot: "pfm", name: "beauty.pfm", body: files.pfm },
+    { slot: "png", name: "display.png", body: files.png },
+    { slot: "thumb", name: "thumb.png", body: files.thumb },
+  ];
+  if (files.hdr) out.push({ slot: "hdr", name: "beauty.hdr", body: files.hdr });
+  if (files.state) out.push({ slot: "state", name: "accumulation.bin", body: files.state });
+  for (const [g, bytes] of Object.entries(files.groups ?? {})) out.push({ slot: `group-${g}`, name: `group-${g}.pfm`, body: bytes });
+  return out;
+}
+
+export async function publishRenderUpload(
   input: { projectId: string; sceneId: string; meta: PublishMeta; files: PublishFiles },
   options: { onProgress?: (p: UploadProgress) => void; signal?: AbortSignal } = {},
 ): Promise<PublishResult> {
-  return new Promise((resolve) => {
-    const xhr = new XMLHttpRequest();
-    xhr.open("POST", `/projects/${input.projectId}/renders/publish`);
-    xhr.responseType = "text";
-    xhr.upload.onprogress = (e) => {
-      if (e.lengthComputable) options.onProgress?.({ loaded: e.loaded, total: e.total, fraction: e.total ? e.loaded / e.total : 0 });
-    };
-    xhr.onload = () => {
-      try {
-        const body = JSON.parse(xhr.responseText) as { ok: boolean; error?: string; field?: string; render?: { id: string; accumulationHash: string; url: string } };
-        if (body.ok && body.render) resolve({ ok: true, render: body.render });
-        else resolve({ ok: false, error: body.error ?? `publishing failed (HTTP ${xhr.status})`, field: body.field, status: xhr.status });
-      } catch {
-        resolve({ ok: false, error: `publishing failed (HTTP ${xhr.status})`, status: xhr.status });
-      }
-    };
-    xhr.onerror = () => resolve({ ok: false, error: "the connection failed during the upload; nothing was published", status: 0 });
-    xhr.onabort = () => resolve({ ok: false, error: "the upload was cancelled; nothing was published", status: 0 });
-    options.signal?.addEventListener("abort", () => xhr.abort(), { once: true });
-    xhr.send(publishForm(input));
-  });
+  const groups = Object.keys(input.files.groups ?? {});
+  const result = await stagedUpload(input.projectId, { kind: "render", sceneId: input.sceneId, meta: { ...input.meta, groups } }, publishFiles(input.files), options);
+  if (!result.ok) return result;
+  const render = result.body.render as { id: string; accumulationHash: string; url: string } | undefined;
+  if (!render) return { ok: false, error: "the server answered without the published render", status: 200 };
+  return { ok: true, render };
 }

@@ -6,6 +6,7 @@ import { data, Form, useNavigation, useRevalidator } from "react-router";
 import { z } from "zod";
 import { Button, Notice, Table, Td, Th, toast } from "~/components/ui";
 import { assetKindForName, inspectAsset, MAX_ASSET_BYTES } from "~/lib/asset-inspect";
+import { stagedUpload } from "~/lib/upload.client";
 import { logActivity } from "~/models/activity.server";
 import { AssetError, assetRef, deleteAsset, listAssets } from "~/models/asset.server";
 import { requireAccess } from "~/services/permissions.server";
@@ -52,7 +53,16 @@ export async function action({ request, params }: Route.ActionArgs) {
   return { ok: "Asset deleted." };
 }
 
-type Upload = { id: number; name: string; size: number; progress: number; status: "checking" | "uploading" | "done" | "error"; message: string };
+type Upload = {
+  id: number;
+  name: string;
+  size: number;
+  sent: number;
+  progress: number;
+  status: "checking" | "uploading" | "finishing" | "done" | "error";
+  message: string;
+  cancel?: () => void;
+};
 
 function bytesText(n: number): string {
   return n < 1024 ? `${n} B` : n < 1024 * 1024 ? `${(n / 1024).toFixed(1)} KB` : `${(n / 1024 / 1024).toFixed(1)} MB`;
@@ -98,31 +108,36 @@ export default function Assets({ loaderData, actionData }: Route.ComponentProps)
   const uploadOne = useCallback(
     async (file: File) => {
       const id = nextId++;
-      setUploads((u) => [{ id, name: file.name, size: file.size, progress: 0, status: "checking", message: "Checking…" }, ...u]);
+      setUploads((u) => [{ id, name: file.name, size: file.size, sent: 0, progress: 0, status: "checking", message: "Checking…" }, ...u]);
       if (!assetKindForName(file.name)) return update(id, { status: "error", message: `${file.name}: only .obj meshes and .hdr maps can be uploaded` });
       if (file.size > MAX_ASSET_BYTES) return update(id, { status: "error", message: `${file.name}: ${file.size} bytes is more than the ${MAX_ASSET_BYTES}-byte limit` });
       const bytes = new Uint8Array(await file.arrayBuffer());
       // The same readers the renderer uses: a broken file is reported here, with its line or byte, before uploading.
       const check = inspectAsset(file.name, bytes);
       if (!check.ok) return update(id, { status: "error", message: check.message });
-      update(id, { status: "uploading", message: "Uploading…" });
-      const xhr = new XMLHttpRequest();
-      xhr.open("POST", `/projects/${projectId}/assets/upload?name=${encodeURIComponent(file.name)}`);
-      xhr.upload.onprogress = (e) => e.lengthComputable && update(id, { progress: e.loaded / e.total });
-      xhr.onload = () => {
-        let body: { ok?: boolean; error?: string; created?: boolean; asset?: { ref: string } } = {};
-        try {
-          body = JSON.parse(xhr.responseText) as typeof body;
-        } catch {
-          /* reported below */
-        }
-        if (body.ok && body.asset) {
-          update(id, { status: "done", progress: 1, message: body.created ? `Stored as ${body.asset.ref}` : `Already stored as ${body.asset.ref}` });
-          revalidator.revalidate();
-        } else update(id, { status: "error", message: body.error ?? `Upload failed (HTTP ${xhr.status})` });
-      };
-      xhr.onerror = () => update(id, { status: "error", message: "The connection failed during the upload." });
-      xhr.send(bytes);
+      // Staged: the server checks the size first, the bytes stream (with progress) and the asset appears only
+      // once the server has re-checked them; cancelling or a failure leaves nothing behind.
+      const ctrl = new AbortController();
+      update(id, { status: "uploading", message: "Uploading…", cancel: () => ctrl.abort() });
+      const result = await stagedUpload(projectId, { kind: "asset", name: file.name }, [{ slot: "file", name: file.name, body: bytes }], {
+        describe: ([d]) => ({ bytes: d!.bytes, sha256: d!.sha256 }),
+        signal: ctrl.signal,
+        onProgress: (p) =>
+          p.phase === "hashing"
+            ? update(id, { message: "Computing its SHA-256…" })
+            : update(id, {
+                status: p.phase === "finishing" ? "finishing" : "uploading",
+                sent: p.loaded,
+                progress: p.fraction,
+                message: p.phase === "finishing" ? "Checking the stored file…" : `Uploading… ${bytesText(p.loaded)} of ${bytesText(p.total)}`,
+              }),
+      });
+      if (result.ok) {
+        const asset = result.body.asset as { ref: string } | undefined;
+        const created = result.body.created === true;
+        update(id, { status: "done", progress: 1, sent: file.size, cancel: undefined, message: created ? `Stored as ${asset?.ref}` : `Already stored as ${asset?.ref}` });
+        revalidator.revalidate();
+      } else update(id, { status: "error", cancel: undefined, message: result.error });
     },
     [projectId, revalidator],
   );
@@ -149,11 +164,18 @@ export default function Assets({ loaderData, actionData }: Route.ComponentProps)
       {uploads.length ? (
         <ul className="flex flex-col gap-1" aria-label="Uploads">
           {uploads.map((u) => (
-            <li key={u.id} className="rounded border border-line px-3 py-2 text-sm" data-testid="upload-item" data-status={u.status}>
+            <li key={u.id} className="rounded border border-line px-3 py-2 text-sm" data-testid="upload-item" data-status={u.status} data-sent={u.sent} data-size={u.size}>
               <div className="flex items-center gap-2">
                 <span className="font-medium">{u.name}</span>
                 <span className="text-xs text-ink-faint">{bytesText(u.size)}</span>
-                {u.status === "uploading" ? <progress className="ml-auto w-40" value={u.progress} max={1} /> : null}
+                {u.status === "uploading" || u.status === "finishing" || u.status === "done" ? (
+                  <progress className="ml-auto w-40" value={u.progress} max={1} aria-label={`${u.name} upload progress`} data-testid="upload-progress" />
+                ) : null}
+                {u.cancel && u.status === "uploading" ? (
+                  <Button size="sm" tone="quiet" onClick={u.cancel} data-testid="upload-cancel">
+                    Cancel
+                  </Button>
+                ) : null}
               </div>
               <p className={u.status === "error" ? "text-danger" : u.status === "done" ? "text-ok" : "text-ink-muted"}>{u.message}</p>
             </li>

@@ -1,12 +1,15 @@
-// POST the raw bytes of one OBJ or .hdr file (?name=kettle.obj). Answers JSON { ok, asset } or
-// { ok: false, error } whose message names the line (OBJ) or byte (HDR) at fault. Used by the Assets tab's
-// drop zone through XMLHttpRequest so the upload shows progress.
+// POST the raw bytes of one small OBJ or .hdr file (?name=kettle.obj) in one request (scripts, tests). Answers
+// JSON { ok, asset } or { ok: false, error } whose message names the line (OBJ) or byte (HDR) at fault.
+// The Assets tab's drop zone uses staged uploads instead (/projects/:id/uploads), which stream any file up to
+// the full asset limit without holding it in the server's memory.
 import { logActivity } from "~/models/activity.server";
 import { AssetError, assetRef, uploadAsset } from "~/models/asset.server";
-import { MAX_ASSET_BYTES } from "~/lib/asset-inspect";
 import { BodyTooLargeError, readBodyLimited } from "~/services/body-limit.server";
 import { requireAccess } from "~/services/permissions.server";
 import type { Route } from "./+types/projects.$projectId.assets.upload";
+
+/** This path holds the body in memory, so it takes only small files; the staged upload takes up to LIMITS.maxAssetBytes. */
+const ONE_REQUEST_ASSET_BYTES = 32 * 1024 * 1024;
 
 function fail(status: number, error: string) {
   return Response.json({ ok: false, error }, { status });
@@ -18,9 +21,9 @@ export async function action({ request, params }: Route.ActionArgs) {
   if (!name) return fail(400, "name: the file name is required (?name=…)");
   let bytes: Uint8Array;
   try {
-    bytes = await readBodyLimited(request, MAX_ASSET_BYTES);
+    bytes = await readBodyLimited(request, ONE_REQUEST_ASSET_BYTES);
   } catch (e) {
-    if (e instanceof BodyTooLargeError) return fail(413, `${name}: more than the ${MAX_ASSET_BYTES}-byte limit`);
+    if (e instanceof BodyTooLargeError) return fail(413, `${name}: more than the ${ONE_REQUEST_ASSET_BYTES}-byte limit of a one-request upload; drop it on the Assets tab (a staged upload) instead`);
     throw e;
   }
   try {

@@ -1,23 +1,22 @@
-// POST multipart/form-data: keep a render from the browser in the project's library. Fields:
+// POST multipart/form-data: keep a small render in the project's library in one request (scripts, tests). Fields:
 //   sceneId, meta (JSON, PublishMetadataSchema), pfm (required), png (required), hdr, thumb, state,
 //   group:<name> (one PFM per light group). Answers JSON { ok: true, render } or { ok: false, error, field }.
-// The client side is app/lib/publish-render.client.ts (XMLHttpRequest, so uploads report progress).
+// The browser publishes through staged uploads instead (/projects/:id/uploads, app/lib/publish-render.client.ts):
+// they stream, so they have no such size ceiling and never sit whole in the server's memory.
 import { decodePfm } from "@tracer/io/pfm";
-import { validateScene } from "@tracer/scene/validate";
 import { thumbnailPng } from "~/lib/render-outputs";
 import { logActivity } from "~/models/activity.server";
-import { PublishMetadataSchema, publishRender } from "~/models/render.server";
-import { getScene, getVersion } from "~/models/scene.server";
+import { checkPublishTarget, PublishMetadataSchema, publishRender } from "~/models/render.server";
 import { BodyTooLargeError, formDataLimited } from "~/services/body-limit.server";
 import { requireAccess } from "~/services/permissions.server";
 import type { RenderFileBytes } from "~/services/render-files.server";
 import type { Route } from "./+types/projects.$projectId.renders.publish";
 
 /**
- * The whole multipart body is held in memory while it is checked, so it is bounded: 768 MiB covers a
- * 4096×4096 render with its PFM, HDR, PNG, state and a few light groups. Larger renders belong to the pool.
+ * The whole multipart body is held in memory while it is checked, so this one-request path only takes small
+ * renders (about 1000×1000 with its state); anything larger goes through a staged upload, which streams.
  */
-const MAX_PUBLISH_BYTES = 768 * 1024 * 1024;
+const MAX_PUBLISH_BYTES = 32 * 1024 * 1024;
 
 function fail(status: number, error: string, field?: string) {
   return Response.json({ ok: false, error, field }, { status });
@@ -41,13 +40,10 @@ export async function action({ request, params }: Route.ActionArgs) {
   try {
     form = await formDataLimited(request, MAX_PUBLISH_BYTES);
   } catch (e) {
-    if (e instanceof BodyTooLargeError) return fail(413, `the upload is more than the ${MAX_PUBLISH_BYTES}-byte limit`);
+    if (e instanceof BodyTooLargeError) return fail(413, `the upload is more than the ${MAX_PUBLISH_BYTES}-byte limit of a one-request publish; larger renders go through a staged upload (POST /projects/:id/uploads)`);
     return fail(400, "the body must be multipart/form-data");
   }
   const sceneId = String(form.get("sceneId") ?? "");
-  const scene = await getScene(sceneId);
-  if (!scene || scene.projectId !== access.projectId) return fail(404, "no such scene in this project", "sceneId");
-
   let metaJson: unknown;
   try {
     metaJson = JSON.parse(String(form.get("meta") ?? ""));
@@ -60,17 +56,9 @@ export async function action({ request, params }: Route.ActionArgs) {
     return fail(400, `meta.${i.path.join(".")}: ${i.message}`, `meta.${i.path.join(".")}`);
   }
   const meta = parsed.data;
-  const version = await getVersion(meta.versionId);
-  if (!version || version.sceneId !== scene.id) return fail(400, "meta.versionId: not a version of this scene", "meta.versionId");
-  const checked = validateScene(version.scene);
-  if (!checked.ok) return fail(400, "the version's scene no longer validates", "meta.versionId");
-  const { image, render: settings, display } = checked.scene;
-  if (meta.width !== image.width || meta.height !== image.height) {
-    return fail(400, `meta.width/height: ${meta.width}×${meta.height} does not match the version's image ${image.width}×${image.height}`, "meta.width");
-  }
-  if (meta.integrator !== settings.integrator) {
-    return fail(400, `meta.integrator: "${meta.integrator}" does not match the version's integrator "${settings.integrator}"`, "meta.integrator");
-  }
+  const target = await checkPublishTarget(access.projectId, sceneId, meta);
+  if (!target.ok) return fail(target.status, target.error, target.field);
+  const display = target.display;
 
   const files: RenderFileBytes = {
     pfm: await bytesOf(form, "pfm"),
@@ -100,8 +88,8 @@ export async function action({ request, params }: Route.ActionArgs) {
   files.thumb ??= thumbnailPng(beauty, display);
 
   try {
-    const render = await publishRender({ projectId: access.projectId, sceneId: scene.id, meta, files, createdBy: access.actor.user.id });
-    await logActivity(access.projectId, access.actor.user.id, "render.published", { renderId: render.id, sceneId: scene.id, versionId: version.id });
+    const render = await publishRender({ projectId: access.projectId, sceneId: target.sceneId, meta, files, createdBy: access.actor.user.id });
+    await logActivity(access.projectId, access.actor.user.id, "render.published", { renderId: render.id, sceneId: target.sceneId, versionId: target.versionId });
     return Response.json({
       ok: true,
       render: { id: render.id, accumulationHash: render.accumulationHash, url: `/projects/${access.projectId}/renders?render=${render.id}` },

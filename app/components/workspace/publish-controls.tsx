@@ -7,7 +7,7 @@
 import { useMemo, useRef, useState } from "react";
 import { Link } from "react-router";
 import { Button, Input, toast } from "~/components/ui";
-import { publishRenderUpload } from "~/lib/publish-render.client";
+import { publishRenderUpload, type UploadProgress } from "~/lib/publish-render.client";
 import { renderKey } from "~/lib/workspace-render-key";
 import { useWorkspace, useWorkspaceStore } from "./context";
 import { usePreview, usePreviewContext } from "./preview";
@@ -15,7 +15,7 @@ import { usePreview, usePreviewContext } from "./preview";
 type Phase =
   | { kind: "idle" }
   | { kind: "preparing" }
-  | { kind: "uploading"; fraction: number }
+  | { kind: "uploading"; fraction: number; progress?: UploadProgress }
   | { kind: "done"; url: string; spp: number; hash: string }
   | { kind: "failed"; error: string };
 
@@ -37,6 +37,16 @@ export function publishBlocker(p: {
   if (p.status === "error") return "The preview stopped with an error.";
   if (p.settledSpp < 1) return "Publishing is possible once every pixel has at least one full pass.";
   return null;
+}
+
+function mib(n: number): string {
+  return n < 1024 * 1024 ? `${(n / 1024).toFixed(0)} KB` : `${(n / 1024 / 1024).toFixed(1)} MB`;
+}
+
+function progressText(p: UploadProgress | undefined, fraction: number): string {
+  if (p?.phase === "hashing") return "checking…";
+  if (p?.phase === "finishing") return "verifying…";
+  return p ? `${Math.round(fraction * 100)}% · ${mib(p.loaded)} of ${mib(p.total)}` : `${Math.round(fraction * 100)}%`;
 }
 
 export function PublishControls({ projectId, sceneId }: { projectId: string; sceneId: string }) {
@@ -102,7 +112,7 @@ export function PublishControls({ projectId, sceneId }: { projectId: string; sce
         },
         files: pkg.files,
       },
-      { onProgress: (p) => setPhase({ kind: "uploading", fraction: p.fraction }), signal: ctrl.signal },
+      { onProgress: (p) => setPhase({ kind: "uploading", fraction: p.fraction, progress: p }), signal: ctrl.signal },
     );
     abortRef.current = null;
     if (result.ok) {
@@ -155,13 +165,27 @@ export function PublishControls({ projectId, sceneId }: { projectId: string; sce
               >
                 <div className="h-full bg-accent" style={{ width: `${phase.kind === "uploading" ? phase.fraction * 100 : 0}%` }} />
               </div>
-              <span className="tabular-nums text-ink-muted">{phase.kind === "uploading" ? `${Math.round(phase.fraction * 100)}%` : "packing…"}</span>
+              <span className="tabular-nums text-ink-muted" data-testid="publish-progress-text">
+                {phase.kind === "uploading" ? progressText(phase.progress, phase.fraction) : "packing…"}
+              </span>
               {phase.kind === "uploading" ? (
                 <Button size="sm" tone="quiet" onClick={() => abortRef.current?.abort()}>
                   Cancel
                 </Button>
               ) : null}
             </div>
+          ) : null}
+          {phase.kind === "uploading" && phase.progress && phase.progress.phase !== "hashing" ? (
+            <ul className="flex flex-col gap-0.5 text-ink-faint" aria-label="Files">
+              {phase.progress.files.map((f) => (
+                <li key={f.slot} className="flex justify-between tabular-nums" data-testid="publish-file" data-sent={f.loaded} data-size={f.total}>
+                  <span>{f.name}</span>
+                  <span>
+                    {mib(f.loaded)} / {mib(f.total)}
+                  </span>
+                </li>
+              ))}
+            </ul>
           ) : null}
           {phase.kind === "done" ? (
             <p className="text-ok" data-testid="publish-result" data-accumulation-hash={phase.hash}>
