@@ -1,8 +1,10 @@
 /**
- * Looking at light in the preview: combining the per-group radiance buffers with the light-balance gains,
- * the exposure false-colour view, the luminance histogram and the pixel probe. All of it works on linear
- * float images (RGB per pixel, row 0 = top), never on the 8-bit display picture.
+ * Looking at light in the preview: the light-balance factors, the exposure false-colour bands, the shapes of
+ * the histogram, probe and picture the coordinator worker sends, and the readout units. The per-pixel work
+ * itself (combining groups, display transform, false colour, histogram, probe) is in workspace-picture.ts,
+ * which only the coordinator worker imports: this module is cheap and safe on the page's main thread.
  */
+import type { Display } from "@tracer/film/display";
 
 export type FloatImage = { width: number; height: number; data: Float32Array };
 export type Rgb = [number, number, number];
@@ -39,29 +41,6 @@ export function balanceFactor(b: GroupBalance): Rgb {
 export function isNeutral(b: GroupBalance): boolean {
   const f = balanceFactor(b);
   return Math.abs(f[0] - 1) < 1e-9 && Math.abs(f[1] - 1) < 1e-9 && Math.abs(f[2] - 1) < 1e-9;
-}
-
-/** beauty = Σ_g factor_g ⊙ group_g, written into `out` (allocated if absent). Groups must share one size. */
-export function combineGroups(groups: readonly FloatImage[], balances: readonly GroupBalance[], out?: FloatImage): FloatImage {
-  if (groups.length === 0) throw new Error("combineGroups: no groups");
-  const { width, height } = groups[0]!;
-  const n = width * height * 3;
-  const res = out && out.data.length === n ? out : { width, height, data: new Float32Array(n) };
-  res.width = width;
-  res.height = height;
-  const d = res.data;
-  d.fill(0);
-  groups.forEach((g, gi) => {
-    if (g.width !== width || g.height !== height) throw new Error("combineGroups: group buffers differ in size");
-    const [fr, fg, fb] = balanceFactor(balances[gi] ?? NEUTRAL_BALANCE);
-    const s = g.data;
-    for (let i = 0; i < n; i += 3) {
-      d[i] += fr * s[i]!;
-      d[i + 1] += fg * s[i + 1]!;
-      d[i + 2] += fb * s[i + 2]!;
-    }
-  });
-  return res;
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -110,21 +89,6 @@ export function falseColourOf(y: number, exposure: number): Rgb {
   return b < 0 ? NO_LIGHT : FALSE_COLOUR_BANDS[b]!.colour;
 }
 
-/** Paint the false-colour view of an image into RGBA8 (alpha 255). */
-export function falseColourToRgba8(img: FloatImage, exposure = 0, out?: Uint8ClampedArray): Uint8ClampedArray {
-  const n = img.width * img.height;
-  const res = out && out.length === n * 4 ? out : new Uint8ClampedArray(n * 4);
-  const d = img.data;
-  for (let p = 0; p < n; p++) {
-    const c = falseColourOf(luminance(d[p * 3]!, d[p * 3 + 1]!, d[p * 3 + 2]!), exposure);
-    res[p * 4] = c[0];
-    res[p * 4 + 1] = c[1];
-    res[p * 4 + 2] = c[2];
-    res[p * 4 + 3] = 255;
-  }
-  return res;
-}
-
 // ---------------------------------------------------------------------------------------------
 // luminance histogram
 
@@ -144,63 +108,35 @@ export type Histogram = {
   maxLuminance: number;
 };
 
-/** Histogram of log2 luminance in stops around middle grey, `bins` equal bins over [minStops, maxStops). */
-export function luminanceHistogram(
-  img: FloatImage,
-  opts: { exposure?: number; bins?: number; minStops?: number; maxStops?: number } = {},
-): Histogram {
-  const exposure = opts.exposure ?? 0;
-  const bins = opts.bins ?? 48;
-  const minStops = opts.minStops ?? -10;
-  const maxStops = opts.maxStops ?? 6;
-  const counts = new Uint32Array(bins);
-  const width = (maxStops - minStops) / bins;
-  let black = 0;
-  let below = 0;
-  let above = 0;
-  let lnSum = 0;
-  let lit = 0;
-  let maxY = 0;
-  const n = img.width * img.height;
-  const d = img.data;
-  for (let p = 0; p < n; p++) {
-    const y = luminance(d[p * 3]!, d[p * 3 + 1]!, d[p * 3 + 2]!);
-    if (!(y > 0)) {
-      black++;
-      continue;
-    }
-    lit++;
-    lnSum += Math.log(y);
-    if (y > maxY) maxY = y;
-    const s = stopsFromGrey(y, exposure);
-    let b = Math.floor((s - minStops) / width);
-    if (b < 0) {
-      below++;
-      b = 0;
-    } else if (b >= bins) {
-      above++;
-      b = bins - 1;
-    }
-    counts[b]!++;
-  }
-  return { minStops, maxStops, counts, black, below, above, total: n, logAverage: lit ? Math.exp(lnSum / lit) : 0, maxLuminance: maxY };
-}
+/** The histogram the workspace shows: 48 bins from −10 to +6 stops around middle grey. */
+export const HISTOGRAM_BINS = 48;
+export const HISTOGRAM_MIN_STOPS = -10;
+export const HISTOGRAM_MAX_STOPS = 6;
 
 // ---------------------------------------------------------------------------------------------
 // pixel probe
 
 export type ProbeReading = { x: number; y: number; rgb: Rgb; luminance: number; stops: number | null };
 
-/** Linear radiance and luminance of one pixel (x right, y down from the top-left). */
-export function probePixel(img: FloatImage, x: number, y: number, exposure = 0): ProbeReading | null {
-  const px = Math.floor(x);
-  const py = Math.floor(y);
-  if (px < 0 || py < 0 || px >= img.width || py >= img.height) return null;
-  const i = (py * img.width + px) * 3;
-  const rgb: Rgb = [img.data[i]!, img.data[i + 1]!, img.data[i + 2]!];
-  const lum = luminance(rgb[0], rgb[1], rgb[2]);
-  return { x: px, y: py, rgb, luminance: lum, stops: lum > 0 ? stopsFromGrey(lum, exposure) : null };
-}
+// ---------------------------------------------------------------------------------------------
+// what the page asks for and what it gets back
+
+export type ViewMode = "image" | "falseColour";
+
+/** How the page wants the buffers shown: per-group balance by group name, display block, picture or exposure map. */
+export type Look = { balances: Record<string, GroupBalance>; display: Display; view: ViewMode };
+
+export const DEFAULT_LOOK: Look = { balances: {}, display: { exposure: 0, toneMap: "none" }, view: "image" };
+
+/** A frame ready to draw: 8-bit RGBA (row 0 = top) and the histogram of the same balanced image. */
+export type Picture = {
+  width: number;
+  height: number;
+  rgba: Uint8ClampedArray;
+  histogram: Histogram;
+  /** The look request it answers (0 = the worker's default). */
+  lookSeq: number;
+};
 
 // ---------------------------------------------------------------------------------------------
 // light meter units

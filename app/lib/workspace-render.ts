@@ -1,14 +1,16 @@
 /**
  * Main-thread side of the preview: starts the render coordinator worker, restarts it when the scene's
- * render-relevant content changes (display settings only change how the buffers are shown), and keeps the
- * latest frame and progress in a small store of its own so progress ticks never re-render the forms.
- * Import only in the browser.
+ * render-relevant content changes (display settings only change how the buffers are shown), tells it the
+ * look to show them with, and keeps the latest picture and progress in a small store of its own so
+ * progress ticks never re-render the forms. The worker sends pictures ready to draw; nothing here touches
+ * pixels. Import only in the browser.
  */
 import { proxy, wrap, type Remote } from "comlink";
 import { renderKey } from "./workspace-render-key";
 import { createStore, type StoreApi } from "zustand/vanilla";
 import type { Display } from "@tracer/film/display";
-import type { MeterReading, PublishPackage, SessionApi, SessionFrame, SessionStatus } from "./workspace-session.worker";
+import type { Look, Picture, ProbeReading } from "./workspace-image";
+import type { MeterReading, PublishPackage, SessionApi, SessionFrame, SessionMessage, SessionStatus } from "./workspace-session.worker";
 export { renderKey } from "./workspace-render-key";
 
 export type PreviewState = {
@@ -17,9 +19,10 @@ export type PreviewState = {
   width: number;
   height: number;
   groupNames: string[];
-  groups: Float32Array[] | null;
-  /** Bumped whenever `groups` holds new pixels. */
-  pixelsVersion: number;
+  /** The latest picture to draw (kept through errors and fresh compiles: the last good image stays). */
+  picture: Picture | null;
+  /** Bumped whenever a new picture arrives (new pixels or a new look). */
+  pictureVersion: number;
   sppDone: number;
   sppTarget: number;
   samplesPerSecond: number;
@@ -40,7 +43,7 @@ export type PreviewState = {
 export type { MeterReading, PublishPackage };
 
 export const initialPreview: PreviewState = {
-  status: "idle", runId: 0, width: 0, height: 0, groupNames: [], groups: null, pixelsVersion: 0, sppDone: 0, sppTarget: 0,
+  status: "idle", runId: 0, width: 0, height: 0, groupNames: [], picture: null, pictureVersion: 0, sppDone: 0, sppTarget: 0,
   samplesPerSecond: 0, elapsedMs: 0, relStdError: Infinity, stopReason: null, error: null, workers: 0,
   settledSpp: 0, accumulationHash: null, scale: 1, runKey: "",
 };
@@ -56,10 +59,30 @@ export class PreviewRenderer {
   private worker: Worker;
   private api: Remote<SessionApi>;
   private latestRun = 0;
+  private lookSeq = 0;
+  private probeSeq = 0;
 
   constructor(private assetBase: string) {
     this.worker = new Worker(new URL("./workspace-session.worker.ts", import.meta.url), { type: "module", name: "tracewell-preview" });
     this.api = wrap<SessionApi>(this.worker);
+    void this.api.connect(proxy((m: SessionMessage) => this.onMessage(m)));
+  }
+
+  /** How the buffers are to be shown; the worker answers with a picture (bursts cost one picture). Returns the request's number. */
+  setLook(look: Look): number {
+    const seq = ++this.lookSeq;
+    void this.api.setLook(look, seq);
+    return seq;
+  }
+
+  /**
+   * The balanced linear radiance at a pixel, read in the worker. Resolves to undefined when a later probe
+   * was asked for meanwhile (its answer is the one to show).
+   */
+  async probe(x: number, y: number): Promise<ProbeReading | null | undefined> {
+    const seq = ++this.probeSeq;
+    const r = await this.api.probe(x, y);
+    return seq === this.probeSeq ? r : undefined;
   }
 
   start(scene: unknown, opts: { scale: number; noiseTarget: number | null }): void {
@@ -68,8 +91,14 @@ export class PreviewRenderer {
       settledSpp: 0, accumulationHash: null, scale: opts.scale, runKey: renderKey(scene),
     });
     void this.api
-      .start(scene, { ...opts, assetBase: this.assetBase }, proxy((f: SessionFrame) => this.onFrame(f)))
+      .start(scene, { ...opts, assetBase: this.assetBase })
       .catch((e: unknown) => this.store.setState({ status: "error", error: e instanceof Error ? e.message : String(e) }));
+  }
+
+  private onMessage(m: SessionMessage): void {
+    // Pictures always come from the worker's latest buffers, so each one replaces the last.
+    if (m.picture) this.store.setState((s) => ({ picture: m.picture, pictureVersion: s.pictureVersion + 1 }));
+    if (m.progress) this.onFrame(m.progress);
   }
 
   private onFrame(f: SessionFrame): void {
@@ -82,9 +111,6 @@ export class PreviewRenderer {
       width: f.width || s.width,
       height: f.height || s.height,
       groupNames: f.groupNames.length ? f.groupNames : s.groupNames,
-      // An error or a fresh compile keeps the last good picture on screen.
-      groups: f.groups ?? s.groups,
-      pixelsVersion: f.groups ? s.pixelsVersion + 1 : s.pixelsVersion,
       sppDone: f.sppDone,
       sppTarget: f.sppTarget || s.sppTarget,
       samplesPerSecond: f.samplesPerSecond,

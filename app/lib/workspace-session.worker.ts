@@ -1,9 +1,12 @@
 /// <reference lib="webworker" />
 /**
  * The workspace's render coordinator, itself a Web Worker so the page's main thread never compiles,
- * traces or accumulates. It compiles the scene, drives the tracer's worker pool (nested module workers:
- * one per spare core) over tiles and growing pass batches, keeps the exact accumulation, and posts the
- * mean radiance of each light group a few times a second. It also answers light-meter readings.
+ * traces, accumulates or maps pixels for display. It compiles the scene, drives the tracer's worker pool
+ * (nested module workers: one per spare core) over tiles and growing pass batches, keeps the exact
+ * accumulation, and a few times a second resolves the mean radiance of each light group and turns it into
+ * a picture ready to draw under the page's current look (light balance, exposure, tone map, false colour),
+ * with its histogram. A look change re-presents the last buffers without touching the render. It also
+ * answers pixel-probe and light-meter readings.
  */
 import { expose, transfer } from "comlink";
 import { compileScene } from "@tracer/compile/compile";
@@ -19,6 +22,7 @@ import {
   type UnitResult,
 } from "@tracer/film/accumulate";
 import type { Display } from "@tracer/film/display";
+import type { FloatImage } from "@tracer/io/image";
 import { measureIrradiance } from "@tracer/render/meter";
 import { uniqueAssetRefs } from "@tracer/scene/assets";
 import { validateScene } from "@tracer/scene/validate";
@@ -26,6 +30,8 @@ import { createBrowserPool } from "@tracer/workers/browser-pool";
 import type { WorkerPool } from "@tracer/workers/pool";
 import { TRACER_VERSION } from "@tracer/version";
 import { renderOutputs, type RenderOutputs } from "./render-outputs";
+import { DEFAULT_LOOK, type Look, type Picture, type ProbeReading } from "./workspace-image";
+import { presentPicture, probePixel } from "./workspace-picture";
 import { renderKey } from "./workspace-render-key";
 
 export type SessionStatus = "compiling" | "rendering" | "paused" | "done" | "stopped" | "error";
@@ -36,8 +42,6 @@ export type SessionFrame = {
   width: number;
   height: number;
   groupNames: string[];
-  /** One RGB float image per group (row 0 = top), present when pixels changed since the last frame. */
-  groups: Float32Array[] | null;
   sppDone: number;
   sppTarget: number;
   samplesPerSecond: number;
@@ -53,6 +57,13 @@ export type SessionFrame = {
   /** Resolution scale the run renders at. */
   scale: number;
 };
+
+/**
+ * What the coordinator sends the page: progress of the current run (null when only the look changed) and
+ * a picture ready to draw (null when no pixels or look changed). Pictures always come from the latest
+ * buffers, so an error or a fresh compile leaves the last good picture on screen.
+ */
+export type SessionMessage = { progress: SessionFrame | null; picture: Picture | null };
 
 /** A pass-aligned accumulation turned into files, with the facts a publish records beside them. */
 export type PublishPackage = {
@@ -117,6 +128,45 @@ type Run = {
   /** Results of rounds still missing tiles, by the round's first pass. */
   pending: Map<number, { passEnd: number; results: UnitResult[] }>;
 };
+
+/** The latest resolved group buffers (of whichever run last had pixels) and how the page wants them shown. */
+type Shown = { groupNames: string[]; groups: FloatImage[]; combined: FloatImage | null; combinedFor: number };
+let shown: Shown | null = null;
+let look: Look = DEFAULT_LOOK;
+let lookSeq = 0;
+/** Bumped when buffers or look change; `shown.combinedFor` says which state `combined` was made for. */
+let shownState = 0;
+let presentQueued = false;
+let sink: ((m: SessionMessage) => void) | null = null;
+
+function send(progress: SessionFrame | null, picture: Picture | null): void {
+  if (!sink) return;
+  const m: SessionMessage = { progress, picture };
+  sink(picture ? transfer(m, [picture.rgba.buffer as ArrayBuffer]) : m);
+}
+
+/** Combine the groups under the current look (reusing the float scratch) and make the picture to draw. */
+function present(): Picture | null {
+  if (!shown || shown.groups.length === 0) return null; // a scene without light has nothing to show yet
+  const { combined, picture } = presentPicture(shown.groups, shown.groupNames, look, lookSeq, shown.combined ?? undefined);
+  shown.combined = combined;
+  shown.combinedFor = shownState;
+  return picture;
+}
+
+/**
+ * Look changes arrive as fast as a slider moves; they only record the wish and present once after the
+ * messages already queued, so a burst of them costs one picture, not one each.
+ */
+function queuePresent(): void {
+  if (presentQueued) return;
+  presentQueued = true;
+  setTimeout(() => {
+    presentQueued = false;
+    const picture = present();
+    if (picture) send(null, picture);
+  }, 0);
+}
 
 let pool: WorkerPool | null = null;
 let poolSize = 0;
@@ -197,12 +247,33 @@ function settle(run: Run, r: UnitResult): void {
 }
 
 const api = {
-  async start(sceneJson: unknown, opts: StartOptions, onFrame: (f: SessionFrame) => void): Promise<void> {
+  /** Where progress and pictures go (one comlink proxy for the page's lifetime). */
+  connect(onMessage: (m: SessionMessage) => void): void {
+    sink = onMessage;
+  },
+
+  /** How to show the buffers from now on; answered by a picture carrying `seq`. */
+  setLook(next: Look, seq: number): void {
+    look = next;
+    lookSeq = seq;
+    shownState++;
+    queuePresent();
+  },
+
+  /** Linear radiance and luminance of the balanced image at pixel (x, y), as the page shows it now. */
+  probe(x: number, y: number): ProbeReading | null {
+    if (!shown) return null;
+    if (!shown.combined || shown.combinedFor !== shownState) present();
+    return shown.combined ? probePixel(shown.combined, x, y, look.display.exposure) : null;
+  },
+
+  async start(sceneJson: unknown, opts: StartOptions): Promise<void> {
+    const onFrame = (f: SessionFrame) => send(f, null);
     const id = ++runCounter;
     if (current) cancelRun(current);
     const workers = Math.max(1, (navigator.hardwareConcurrency || 2) - 1);
     const base: SessionFrame = {
-      runId: id, status: "compiling", width: 0, height: 0, groupNames: [], groups: null, sppDone: 0, sppTarget: 0,
+      runId: id, status: "compiling", width: 0, height: 0, groupNames: [], sppDone: 0, sppTarget: 0,
       samplesPerSecond: 0, elapsedMs: 0, relStdError: Infinity, stopReason: null, error: null, workers,
       settledSpp: 0, accumulationHash: null, scale: opts.scale,
     };
@@ -240,16 +311,24 @@ const api = {
     current = run;
 
     const frame = (status: SessionStatus, withPixels: boolean): void => {
-      const groups = withPixels ? run.compiled.groupNames.map((_, g) => resolveGroup(run.acc, g).data) : null;
+      let picture: Picture | null = null;
+      if (withPixels) {
+        // A new size (resolution scale) cannot reuse the old float scratch.
+        const same = shown && shown.combined?.width === compiled.width && shown.combined.height === compiled.height;
+        const groups = run.compiled.groupNames.map((_, g) => resolveGroup(run.acc, g));
+        shown = { groupNames: [...compiled.groupNames], groups, combined: same ? shown!.combined : null, combinedFor: -1 };
+        shownState++;
+        picture = present();
+      }
       const ms = elapsed(run);
       const f: SessionFrame = {
-        ...base, status, width: compiled.width, height: compiled.height, groupNames: compiled.groupNames, groups,
+        ...base, status, width: compiled.width, height: compiled.height, groupNames: compiled.groupNames,
         sppDone: sppDone(run), sppTarget: run.target, samplesPerSecond: ms > 0 ? (run.samples / ms) * 1000 : 0, elapsedMs: ms,
         relStdError: relativeStdError(run.acc), stopReason: run.stopReason, settledSpp: run.settledSpp,
         accumulationHash: status === "done" && run.settledSpp > 0 ? accumulationHash(run.settled) : null,
       };
       run.dirty = false;
-      onFrame(groups ? transfer(f, groups.map((g) => g.buffer as ArrayBuffer)) : f);
+      send(f, picture);
     };
 
     try {

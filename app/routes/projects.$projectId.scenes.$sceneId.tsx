@@ -13,14 +13,14 @@ import { SceneForms } from "~/components/workspace/scene-forms";
 import { IssueList } from "~/components/workspace/issue-list";
 import type { EditorHandle } from "~/components/workspace/scene-editor.client";
 import { Button, cx } from "~/components/ui";
-import { diffScenes, sceneDiffLines } from "~/lib/scene-diff";
+import { checkScene } from "~/lib/workspace-check";
 import { clearDraft, loadDraft, saveDraft } from "~/lib/workspace-draft";
 import { renderKey, type PreviewRenderer } from "~/lib/workspace-render";
 import { logActivity } from "~/models/activity.server";
 import { getHead, getScene, getVersion, saveVersion } from "~/models/scene.server";
 import { actorUserId, notFound, requireInProject } from "~/services/project-access.server";
+import { checkVersionText, conflictAccount } from "~/lib/workspace-version.server";
 import { createWorkspaceStore, sceneToText, type WorkspaceStore } from "~/stores/workspace";
-import { validateScene } from "@tracer/scene/validate";
 import type { Route } from "./+types/projects.$projectId.scenes.$sceneId";
 import { pageForm } from "~/services/body-limit.server";
 
@@ -41,6 +41,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const version = requested ? await getVersion(requested) : await getHead(scene.id);
   if (!version || version.sceneId !== scene.id) notFound("That version is not part of this scene.");
   const isHead = version.id === scene.headVersionId;
+  const text = sceneToText(version.scene);
   return {
     projectId: params.projectId,
     scene: { id: scene.id, name: scene.name },
@@ -50,8 +51,10 @@ export async function loader({ request, params }: Route.LoaderArgs) {
       message: version.message,
       authorName: version.authorName,
       createdAt: version.createdAt.toISOString(),
-      text: sceneToText(version.scene),
+      text,
     },
+    /** The version's check, so the page knows its issues and last good scene before its check worker starts. */
+    check: checkVersionText(text),
     isHead,
     /** The ?version= asked for (null = the latest); the editing state is kept per opened address, not per head. */
     requestedVersionId: requested,
@@ -87,11 +90,7 @@ export async function action({ request, params }: Route.ActionArgs): Promise<Sav
   if (result.reason === "invalid") return { ok: false, kind: "invalid", issues: result.issues };
   if (result.reason === "not_found") notFound();
   // Someone saved first: show what they changed and what you changed, each against the version you started from.
-  const parent = claimedParent;
-  const mine = JSON.parse(sceneText) as unknown;
-  const theirsLines = parent ? sceneDiffLines(diffScenes(parent.scene, result.head.scene)) : [];
-  const mineLines = parent ? sceneDiffLines(diffScenes(parent.scene, mine)) : [];
-  const overlap = parent ? overlapOf(diffScenes(parent.scene, result.head.scene), diffScenes(parent.scene, mine)) : [];
+  const account = conflictAccount(claimedParent.scene, result.head.scene, JSON.parse(sceneText) as unknown);
   return {
     ok: false,
     kind: "conflict",
@@ -103,18 +102,9 @@ export async function action({ request, params }: Route.ActionArgs): Promise<Sav
       createdAt: result.head.createdAt.toISOString(),
       text: sceneToText(result.head.scene),
     },
-    parentNumber: parent?.number ?? null,
-    theirs: theirsLines,
-    mine: mineLines,
-    overlap,
+    parentNumber: claimedParent.number,
+    ...account,
   };
-}
-
-/** Fields both sides changed (the ones to look at first). */
-function overlapOf(a: ReturnType<typeof diffScenes>, b: ReturnType<typeof diffScenes>): string[] {
-  const key = (label: string, field: string) => `${label}: ${field}`;
-  const left = new Set(a.changes.flatMap((c) => c.fields.map((f) => key(c.label, f.field))));
-  return [...new Set(b.changes.flatMap((c) => c.fields.map((f) => key(c.label, f.field))).filter((k) => left.has(k)))];
 }
 
 /** A save answers through the store (new base, conflict view); reloading this page's data would only cost time. */
@@ -143,8 +133,9 @@ export default function Workspace({ loaderData }: Route.ComponentProps) {
   const store = useMemo<WorkspaceStore>(
     () =>
       createWorkspaceStore(
-        { sceneId: scene.id, canEdit, base: { id: version.id, number: version.number, text: version.text } },
-        { validate: validateScene },
+        { sceneId: scene.id, canEdit, base: { id: version.id, number: version.number, text: version.text }, check: loaderData.check },
+        // Checks run in a worker; the store keeps at most one in flight and drops answers to older text.
+        { validate: checkScene },
       ),
     // eslint-disable-next-line react-hooks/exhaustive-deps
     [scene.id, loaderData.requestedVersionId],

@@ -2,13 +2,18 @@
  * The workspace's one source of truth: the scene text being edited (the editor and every form write to
  * it), its validation, one undo history shared by all of them, the version the edit started from, and
  * the viewing state (light balance, view mode, resolution scale, noise target) that never touches the JSON.
+ *
+ * Every edit lands in `text` at once (nothing typed waits for anything); the check against the scene format
+ * runs off the main thread through `deps.validate`. At most one check is in flight: when it answers, the
+ * newest text (if it changed meanwhile) is checked next, so a burst of keystrokes costs two checks, not one
+ * each. An answer counts only if it is for the current revision; older answers are dropped.
  */
 import { parse as parseJson, type ParseError } from "jsonc-parser";
 import { createStore, type StoreApi } from "zustand/vanilla";
 import type { Scene } from "@tracer/scene/schema";
 import type { SceneIssue, SceneResult } from "@tracer/scene/validate";
 import { writeBackBalance } from "~/lib/workspace-balance";
-import { NEUTRAL_BALANCE, type GroupBalance } from "~/lib/workspace-image";
+import { NEUTRAL_BALANCE, type GroupBalance, type ViewMode } from "~/lib/workspace-image";
 import { prettyJson, setManyAtPaths, type PathSegment } from "~/lib/workspace-json";
 
 export type EditSource = "editor" | "form" | "balance" | "history" | "load" | "conflict";
@@ -18,7 +23,7 @@ export type BaseVersion = { id: string; number: number; text: string };
 type HistoryEntry = { text: string; label: string };
 
 export type ResolutionScale = 1 | 0.5 | 0.25;
-export type ViewMode = "image" | "falseColour";
+export type { ViewMode };
 
 export type WorkspaceState = {
   sceneId: string;
@@ -33,7 +38,10 @@ export type WorkspaceState = {
   future: HistoryEntry[];
   /** Parsed JSON of `text` when it is syntactically valid (forms edit it), else null. */
   parsed: unknown;
+  /** Problems of the last checked text (the revision in `checkedRevision`). */
   issues: SceneIssue[];
+  /** The revision `issues` and `lastGood` describe; differs from `revision` while a check is running. */
+  checkedRevision: number;
   /** The scene of the latest text that validated: the preview keeps rendering this while the text is broken. */
   lastGood: { scene: Scene; text: string } | null;
   balances: Record<string, GroupBalance>;
@@ -67,10 +75,13 @@ export type WorkspaceInit = {
   base: BaseVersion;
   /** Starting text when it differs from base.text (a restored local draft). */
   text?: string;
+  /** The check of the starting text when already known (the server checks the version it sends). */
+  check?: SceneResult;
 };
 
 export type WorkspaceDeps = {
-  validate: (text: string) => SceneResult;
+  /** Checks a text against the scene format (in the browser: in a worker, so it returns a promise). */
+  validate: (text: string) => SceneResult | Promise<SceneResult>;
   now?: () => number;
   /** Edits with the same coalesce key within this many ms merge into one undo step (typing, slider drags). */
   coalesceMs?: number;
@@ -79,11 +90,14 @@ export type WorkspaceDeps = {
 
 export type WorkspaceStore = StoreApi<WorkspaceState>;
 
-function analyse(text: string, validate: WorkspaceDeps["validate"]): { parsed: unknown; result: SceneResult } {
+/** The forms read plain parsed JSON; parsing is cheap and stays here so they follow every keystroke. */
+function parseForForms(text: string): unknown {
   const errors: ParseError[] = [];
   const parsed: unknown = parseJson(text, errors, { disallowComments: true, allowTrailingComma: false });
-  return { parsed: errors.length ? null : parsed, result: validate(text) };
+  return errors.length ? null : parsed;
 }
+
+const isPromise = <T>(v: T | Promise<T>): v is Promise<T> => typeof (v as { then?: unknown }).then === "function";
 
 export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): WorkspaceStore {
   const now = deps.now ?? (() => Date.now());
@@ -92,20 +106,52 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
   let lastEdit: { key: string; at: number } | null = null;
 
   const startText = init.text ?? init.base.text;
-  const first = analyse(startText, deps.validate);
-  // If a restored draft does not validate, the base version's scene is still worth showing.
-  let firstGood: WorkspaceState["lastGood"] = first.result.ok ? { scene: first.result.scene, text: startText } : null;
-  if (!firstGood && init.text !== undefined) {
-    const baseResult = deps.validate(init.base.text);
-    if (baseResult.ok) firstGood = { scene: baseResult.scene, text: init.base.text };
-  }
+  const known = init.check;
+  let firstCheck = () => {};
 
-  return createStore<WorkspaceState>()((set, get) => {
+  const store = createStore<WorkspaceState>()((set, get) => {
+    let inFlight = false;
+
+    /** Take a check's answer if it is still about the current text. */
+    const receive = (revision: number, text: string, result: SceneResult) => {
+      const s = get();
+      if (s.revision !== revision || s.checkedRevision === revision) return; // stale: a newer text is waiting for its own answer
+      set({
+        checkedRevision: revision,
+        issues: result.ok ? [] : result.issues,
+        lastGood: result.ok ? { scene: result.scene, text } : s.lastGood,
+      });
+    };
+
+    /** Check the current text unless a check is running (it checks the newest text when it answers). */
+    const requestCheck = () => {
+      if (inFlight) return;
+      const { text, revision, checkedRevision } = get();
+      if (checkedRevision === revision) return;
+      let answer: SceneResult | Promise<SceneResult>;
+      try {
+        answer = deps.validate(text);
+      } catch (e) {
+        answer = { ok: false, issues: [{ path: "", message: `the scene could not be checked: ${e instanceof Error ? e.message : String(e)}` }] };
+      }
+      if (!isPromise(answer)) {
+        receive(revision, text, answer);
+        return;
+      }
+      inFlight = true;
+      answer
+        .catch((e: unknown): SceneResult => ({ ok: false, issues: [{ path: "", message: `the scene could not be checked: ${e instanceof Error ? e.message : String(e)}` }] }))
+        .then((result) => {
+          inFlight = false;
+          receive(revision, text, result);
+          requestCheck();
+        });
+    };
+
     /** Move to new text; `record` pushes the previous text onto the undo history. */
     const apply = (text: string, source: EditSource, record: { label: string; coalesceKey?: string } | null) => {
       const s = get();
       if (text === s.text) return;
-      const a = analyse(text, deps.validate);
       let past = s.past;
       let future = s.future;
       if (record) {
@@ -117,16 +163,26 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
       } else {
         lastEdit = null;
       }
-      set({
-        text,
-        revision: s.revision + 1,
-        lastSource: source,
-        past,
-        future,
-        parsed: a.parsed,
-        issues: a.result.ok ? [] : a.result.issues,
-        lastGood: a.result.ok ? { scene: a.result.scene, text } : s.lastGood,
-      });
+      set({ text, revision: s.revision + 1, lastSource: source, past, future, parsed: parseForForms(text) });
+      requestCheck();
+    };
+
+    firstCheck = () => {
+      if (known) return;
+      // If a restored draft does not validate, the base version's scene is still worth showing.
+      if (startText !== init.base.text) {
+        const seed = (r: SceneResult) => {
+          if (r.ok && !get().lastGood) set({ lastGood: { scene: r.scene, text: init.base.text } });
+        };
+        try {
+          const b = deps.validate(init.base.text);
+          if (isPromise(b)) b.then(seed, () => {});
+          else seed(b);
+        } catch {
+          /* the draft's own check reports what is wrong */
+        }
+      }
+      requestCheck();
     };
 
     return {
@@ -138,9 +194,10 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
       lastSource: "load",
       past: [],
       future: [],
-      parsed: first.parsed,
-      issues: first.result.ok ? [] : first.result.issues,
-      lastGood: firstGood,
+      parsed: parseForForms(startText),
+      issues: known && !known.ok ? known.issues : [],
+      checkedRevision: known ? 0 : -1,
+      lastGood: known?.ok ? { scene: known.scene, text: startText } : null,
       balances: {},
       view: "image",
       scale: 1,
@@ -190,6 +247,7 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
       writeBackBalance: () => {
         const s = get();
         const good = s.lastGood;
+        if (s.checkedRevision !== s.revision) throw new Error("the scene is still being checked; try again in a moment");
         if (!good || s.issues.length > 0) throw new Error("fix the scene's errors before writing the balance back");
         const wb = writeBackBalance(s.text, good.scene, s.balances);
         if (wb.changes.length === 0) return { changed: 0, notes: wb.notes };
@@ -213,6 +271,8 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
       },
     };
   });
+  firstCheck();
+  return store;
 }
 
 /** Order of keys when a stored scene (the database does not keep key order) is shown in the editor. */

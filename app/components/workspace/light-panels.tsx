@@ -2,7 +2,7 @@
  * Side panels for judging light: the per-group light balance, the look (exposure, tone map, false
  * colour with its legend, luminance histogram) and measuring (pixel probe and light meter).
  */
-import { useEffect, useMemo, useState } from "react";
+import { useEffect, useState } from "react";
 import { Button, cx, toast } from "~/components/ui";
 import {
   FALSE_COLOUR_BANDS,
@@ -10,12 +10,13 @@ import {
   irradianceToLux,
   isNeutral,
   LUMINOUS_EFFICACY_LM_PER_W,
-  luminanceHistogram,
   NEUTRAL_BALANCE,
-  probePixel,
+  type Histogram as HistogramData,
+  type Picture,
+  type ProbeReading,
   type Rgb,
 } from "~/lib/workspace-image";
-import type { MeterReading } from "~/lib/workspace-render";
+import type { MeterReading, PreviewRenderer } from "~/lib/workspace-render";
 import { useWorkspace, useWorkspaceStore } from "./context";
 import { DisplayFields } from "./scene-forms";
 import { usePreview, usePreviewContext } from "./preview";
@@ -114,9 +115,8 @@ export function LightBalancePanel() {
 export function LookPanel() {
   const store = useWorkspaceStore();
   const view = useWorkspace((s) => s.view);
-  const exposure = useWorkspace((s) => s.lastGood?.scene.display.exposure ?? 0);
-  const { image } = usePreviewContext();
-  const hist = useMemo(() => (image ? luminanceHistogram(image, { exposure, bins: 48, minStops: -10, maxStops: 6 }) : null), [image, exposure]);
+  // Counted by the coordinator worker from the same balanced image as the picture, after its exposure.
+  const hist = usePreviewContext().picture?.histogram ?? null;
   return (
     <div className="flex flex-col gap-3 p-3" data-testid="look-panel">
       <DisplayFields />
@@ -161,7 +161,7 @@ function FalseColourLegend() {
   );
 }
 
-function Histogram({ hist }: { hist: ReturnType<typeof luminanceHistogram> | null }) {
+function Histogram({ hist }: { hist: HistogramData | null }) {
   if (!hist) return null;
   const max = Math.max(1, ...hist.counts);
   const bins = hist.counts.length;
@@ -196,10 +196,9 @@ function Histogram({ hist }: { hist: ReturnType<typeof luminanceHistogram> | nul
 // measure
 
 export function MeasurePanel() {
-  const { image, cursor, meterAt, renderer } = usePreviewContext();
-  const exposure = useWorkspace((s) => s.lastGood?.scene.display.exposure ?? 0);
+  const { picture, cursor, meterAt, renderer } = usePreviewContext();
   const runId = usePreview((s) => s.runId);
-  const probe = image && cursor ? probePixel(image, cursor[0], cursor[1], exposure) : null;
+  const probe = useProbe(renderer, cursor, picture);
   const [reading, setReading] = useState<{ at: [number, number]; r: MeterReading | null; error?: string } | null>(null);
   const [busy, setBusy] = useState(false);
 
@@ -249,6 +248,34 @@ export function MeasurePanel() {
       </section>
     </div>
   );
+}
+
+/**
+ * The probe reading under the cursor, asked of the coordinator worker (it holds the linear buffers). Asked
+ * again when the cursor moves or a new picture arrives (new pixels, balance or exposure); a slow answer to
+ * an older question is ignored.
+ */
+function useProbe(renderer: PreviewRenderer | null, cursor: [number, number] | null, picture: Picture | null): ProbeReading | null {
+  const [probe, setProbe] = useState<ProbeReading | null>(null);
+  const x = cursor?.[0];
+  const y = cursor?.[1];
+  useEffect(() => {
+    if (!renderer || x === undefined || y === undefined || !picture) {
+      setProbe(null);
+      return;
+    }
+    let live = true;
+    renderer
+      .probe(x, y)
+      .then((r) => {
+        if (live && r !== undefined) setProbe(r);
+      })
+      .catch(() => live && setProbe(null));
+    return () => {
+      live = false;
+    };
+  }, [renderer, x, y, picture]);
+  return probe;
 }
 
 function MeterResult({ reading }: { reading: { at: [number, number]; r: MeterReading | null; error?: string } }) {

@@ -1,22 +1,31 @@
 /**
- * The preview: the balanced, exposed picture on a canvas, with the progress strip under it. The float
- * buffers come from the render coordinator worker; here they are only combined (light balance) and mapped
- * for display, which is cheap enough to redo on every slider move without touching the render.
+ * The preview: the balanced, exposed picture on a canvas, with the progress strip under it. The render
+ * coordinator worker combines the per-group buffers under the current look (light balance, exposure, tone
+ * map, false colour) and sends a picture ready to draw, so a slider drag costs the page one putImageData
+ * per picture and never a loop over the pixels.
  */
-import { createContext, useContext, useEffect, useMemo, useRef, useState } from "react";
+import { createContext, useContext, useEffect, useRef, useState } from "react";
 import { useStore } from "zustand";
-import { displayToRgba8 } from "@tracer/film/display";
 import { Button, cx } from "~/components/ui";
-import { combineGroups, falseColourToRgba8, type FloatImage, type GroupBalance, NEUTRAL_BALANCE } from "~/lib/workspace-image";
+import { DEFAULT_LOOK, type Picture } from "~/lib/workspace-image";
 import { etaMs, type PreviewRenderer, type PreviewState } from "~/lib/workspace-render";
 import type { ResolutionScale } from "~/stores/workspace";
 import { useWorkspace, useWorkspaceStore } from "./context";
 
-type PreviewCtx = { renderer: PreviewRenderer | null; image: FloatImage | null; cursor: [number, number] | null; setCursor: (c: [number, number] | null) => void; meterAt: [number, number] | null; setMeterAt: (c: [number, number] | null) => void };
-const PreviewContext = createContext<PreviewCtx>({ renderer: null, image: null, cursor: null, setCursor: () => {}, meterAt: null, setMeterAt: () => {} });
+type PreviewCtx = {
+  renderer: PreviewRenderer | null;
+  picture: Picture | null;
+  /** Number of the latest look sent to the worker (a picture carrying it shows that look). */
+  lookSeq: number;
+  cursor: [number, number] | null;
+  setCursor: (c: [number, number] | null) => void;
+  meterAt: [number, number] | null;
+  setMeterAt: (c: [number, number] | null) => void;
+};
+const PreviewContext = createContext<PreviewCtx>({ renderer: null, picture: null, lookSeq: 0, cursor: null, setCursor: () => {}, meterAt: null, setMeterAt: () => {} });
 
 const EMPTY_PREVIEW: PreviewState = {
-  status: "idle", runId: 0, width: 0, height: 0, groupNames: [], groups: null, pixelsVersion: 0, sppDone: 0, sppTarget: 0,
+  status: "idle", runId: 0, width: 0, height: 0, groupNames: [], picture: null, pictureVersion: 0, sppDone: 0, sppTarget: 0,
   samplesPerSecond: 0, elapsedMs: 0, relStdError: Infinity, stopReason: null, error: null, workers: 0,
   settledSpp: 0, accumulationHash: null, scale: 1, runKey: "",
 };
@@ -31,28 +40,25 @@ export function usePreviewContext(): PreviewCtx {
   return useContext(PreviewContext);
 }
 
-/** Holds the combined (balanced) image every view reads: canvas, histogram, probe. */
+/** Sends the look (balance, display block, view) to the coordinator worker and shares the picture it answers with. */
 export function PreviewProvider({ renderer, children }: { renderer: PreviewRenderer | null; children: React.ReactNode }) {
-  const pixelsVersion = useStore(renderer?.store ?? fallbackStore, (s) => s.pixelsVersion);
+  const picture = useStore(renderer?.store ?? fallbackStore, (s) => s.picture);
   const balances = useWorkspace((s) => s.balances);
+  const view = useWorkspace((s) => s.view);
+  const exposure = useWorkspace((s) => s.lastGood?.scene.display.exposure ?? DEFAULT_LOOK.display.exposure);
+  const toneMap = useWorkspace((s) => s.lastGood?.scene.display.toneMap ?? DEFAULT_LOOK.display.toneMap);
   const [cursor, setCursor] = useState<[number, number] | null>(null);
   const [meterAt, setMeterAt] = useState<[number, number] | null>(null);
-  const image = useMemo(() => {
-    const s = renderer?.store.getState();
-    if (!s?.groups || s.groups.length === 0) return null;
-    const groups = s.groups.map((data) => ({ width: s.width, height: s.height, data }));
-    const bal: GroupBalance[] = s.groupNames.map((g) => balances[g] ?? NEUTRAL_BALANCE);
-    return combineGroups(groups, bal);
-    // eslint-disable-next-line react-hooks/exhaustive-deps
-  }, [renderer, pixelsVersion, balances]);
-  return <PreviewContext.Provider value={{ renderer, image, cursor, setCursor, meterAt, setMeterAt }}>{children}</PreviewContext.Provider>;
+  const [lookSeq, setLookSeq] = useState(0);
+  useEffect(() => {
+    if (renderer) setLookSeq(renderer.setLook({ balances, view, display: { exposure, toneMap } }));
+  }, [renderer, balances, view, exposure, toneMap]);
+  return <PreviewContext.Provider value={{ renderer, picture, lookSeq, cursor, setCursor, meterAt, setMeterAt }}>{children}</PreviewContext.Provider>;
 }
 
 export function PreviewCanvas() {
-  const { image, setCursor, setMeterAt, meterAt } = usePreviewContext();
+  const { picture, lookSeq, setCursor, setMeterAt, meterAt } = usePreviewContext();
   const canvasRef = useRef<HTMLCanvasElement>(null);
-  const display = useWorkspace((s) => s.lastGood?.scene.display);
-  const view = useWorkspace((s) => s.view);
   const status = usePreview((s) => s.status);
   const error = usePreview((s) => s.error);
   const hash = usePreview((s) => s.accumulationHash);
@@ -67,19 +73,19 @@ export function PreviewCanvas() {
     ro.observe(el);
     return () => ro.disconnect();
   }, []);
+  const image = picture;
   const fit = image && box ? ((k) => [Math.floor(image.width * k), Math.floor(image.height * k)] as const)(Math.max(0.01, Math.min(box[0] / image.width, box[1] / image.height))) : null;
 
+  // Drawing is all the page does with pixels: the worker already mapped them for display.
   useEffect(() => {
     const c = canvasRef.current;
-    if (!c || !image) return;
-    if (c.width !== image.width) c.width = image.width;
-    if (c.height !== image.height) c.height = image.height;
+    if (!c || !picture) return;
+    if (c.width !== picture.width) c.width = picture.width;
+    if (c.height !== picture.height) c.height = picture.height;
     const ctx = c.getContext("2d");
     if (!ctx) return;
-    const exposure = display?.exposure ?? 0;
-    const rgba = view === "falseColour" ? falseColourToRgba8(image, exposure) : displayToRgba8(image, display ?? { exposure: 0, toneMap: "none" });
-    ctx.putImageData(new ImageData(rgba as Uint8ClampedArray<ArrayBuffer>, image.width, image.height), 0, 0);
-  }, [image, display, view]);
+    ctx.putImageData(new ImageData(picture.rgba as Uint8ClampedArray<ArrayBuffer>, picture.width, picture.height), 0, 0);
+  }, [picture]);
 
   const toPixel = (e: React.MouseEvent<HTMLCanvasElement>): [number, number] | null => {
     const c = canvasRef.current;
@@ -114,7 +120,14 @@ export function PreviewCanvas() {
   };
 
   return (
-    <div ref={boxRef} className="relative flex min-h-0 flex-1 items-center justify-center overflow-hidden bg-[#0e0e0f] p-2" data-testid="preview" data-accumulation-hash={hash ?? undefined}>
+    <div
+      ref={boxRef}
+      className="relative flex min-h-0 flex-1 items-center justify-center overflow-hidden bg-[#0e0e0f] p-2"
+      data-testid="preview"
+      data-accumulation-hash={hash ?? undefined}
+      data-look-requested={lookSeq}
+      data-look-shown={picture?.lookSeq ?? 0}
+    >
       {image ? (
         <div className="relative" style={fit ? { width: fit[0], height: fit[1] } : undefined}>
           <canvas

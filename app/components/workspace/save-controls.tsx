@@ -5,8 +5,8 @@
  */
 import { useEffect, useRef, useState } from "react";
 import type { FetcherWithComponents } from "react-router";
-import { validateScene } from "@tracer/scene/validate";
 import { Button, TextArea, toast } from "~/components/ui";
+import { checkScene } from "~/lib/workspace-check";
 import { combineEdits } from "~/lib/workspace-merge";
 import { sceneToText } from "~/stores/workspace";
 import { useWorkspace, useWorkspaceStore } from "./context";
@@ -124,11 +124,6 @@ export function SaveControls({ fetcher, onSaved }: { fetcher: FetcherWithCompone
       {conflict ? (
         <ConflictDialog
           conflict={conflict}
-          combined={(() => {
-            const s = store.getState();
-            const merged = combineEdits(s.base.text, s.text, conflict.head.text);
-            return merged !== null && validateScene(merged).ok ? sceneToText(merged) : null;
-          })()}
           onCombine={(text) => {
             const s = store.getState();
             s.rebaseOnto({ id: conflict.head.id, number: conflict.head.number, text: conflict.head.text });
@@ -155,23 +150,51 @@ export function SaveControls({ fetcher, onSaved }: { fetcher: FetcherWithCompone
   );
 }
 
+/**
+ * Their version plus my changes, offered only once it passes the scene check (run in the check worker);
+ * null until then, or when my changes do not apply to theirs.
+ */
+function useCombined(conflict: Conflict): string | null {
+  const store = useWorkspaceStore();
+  const [combined, setCombined] = useState<string | null>(null);
+  useEffect(() => {
+    const s = store.getState();
+    const merged = combineEdits(s.base.text, s.text, conflict.head.text);
+    setCombined(null);
+    if (merged === null) return;
+    let live = true;
+    checkScene(merged).then(
+      (r) => live && setCombined(r.ok ? sceneToText(merged) : null),
+      () => live && setCombined(null),
+    );
+    return () => {
+      live = false;
+    };
+  }, [conflict, store]);
+  return combined;
+}
+
 function ConflictDialog({
   conflict,
-  combined,
   onCombine,
   onClose,
   onKeepMine,
   onTakeTheirs,
 }: {
   conflict: Conflict;
-  combined: string | null;
   onCombine: (text: string) => void;
   onClose: () => void;
   onKeepMine: () => void;
   onTakeTheirs: () => void;
 }) {
-  const firstRef = useRef<HTMLButtonElement>(null);
-  useEffect(() => firstRef.current?.focus(), []);
+  const combined = useCombined(conflict);
+  const keepRef = useRef<HTMLButtonElement>(null);
+  const combineRef = useRef<HTMLButtonElement>(null);
+  // Focus starts on "Keep my edits"; it moves to "Combine" once that is known to work, unless the user moved on.
+  useEffect(() => keepRef.current?.focus(), []);
+  useEffect(() => {
+    if (combined && document.activeElement === keepRef.current) combineRef.current?.focus();
+  }, [combined]);
   const h = conflict.head;
   const from = conflict.parentNumber !== null ? `version ${conflict.parentNumber}` : "your starting version";
   return (
@@ -198,11 +221,16 @@ function ConflictDialog({
           <Button size="sm" onClick={onTakeTheirs} title="Replace your text with version ${h.number} (undo brings yours back)">
             Use version {h.number} instead
           </Button>
-          <Button ref={combined ? undefined : firstRef} size="sm" tone={combined ? "secondary" : "primary"} onClick={onKeepMine}>
+          <Button
+            ref={keepRef}
+            size="sm"
+            tone={combined ? "secondary" : "primary"}
+            onClick={onKeepMine}
+          >
             Keep my edits on top of version {h.number}
           </Button>
           {combined ? (
-            <Button ref={firstRef} size="sm" tone="primary" onClick={() => onCombine(combined)}>
+            <Button ref={combineRef} size="sm" tone="primary" onClick={() => onCombine(combined)}>
               Combine: version {h.number} plus my changes
             </Button>
           ) : null}

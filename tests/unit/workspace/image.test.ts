@@ -1,17 +1,14 @@
 import { describe, expect, it } from "vitest";
 import {
   balanceFactor,
-  combineGroups,
   FALSE_COLOUR_BANDS,
   falseColourBand,
-  falseColourToRgba8,
   irradianceToLux,
   luminance,
-  luminanceHistogram,
-  probePixel,
   stopsFromGrey,
   type FloatImage,
 } from "~/lib/workspace-image";
+import { combineGroups, falseColourToRgba8, luminanceHistogram, probePixel } from "~/lib/workspace-picture";
 import { parseIssuePath, rangeOfPath } from "~/lib/workspace-json";
 import { kettleText } from "./fixture";
 
