@@ -95,17 +95,19 @@ export class PreviewRenderer {
       .catch((e: unknown) => this.store.setState({ status: "error", error: e instanceof Error ? e.message : String(e) }));
   }
 
+  /** One store update per message, so a frame with a picture re-renders its readers once. */
   private onMessage(m: SessionMessage): void {
+    const s = this.store.getState();
+    const progress = m.progress ? this.progressOf(m.progress, s) : null;
     // Pictures always come from the worker's latest buffers, so each one replaces the last.
-    if (m.picture) this.store.setState((s) => ({ picture: m.picture, pictureVersion: s.pictureVersion + 1 }));
-    if (m.progress) this.onFrame(m.progress);
+    const picture = m.picture ? { picture: m.picture, pictureVersion: s.pictureVersion + 1 } : null;
+    if (progress || picture) this.store.setState({ ...progress, ...picture });
   }
 
-  private onFrame(f: SessionFrame): void {
-    if (f.runId < this.latestRun) return; // a late frame of a run that was replaced
+  private progressOf(f: SessionFrame, s: PreviewState): Partial<PreviewState> | null {
+    if (f.runId < this.latestRun) return null; // a late frame of a run that was replaced
     this.latestRun = f.runId;
-    const s = this.store.getState();
-    this.store.setState({
+    return {
       status: f.status,
       runId: f.runId,
       width: f.width || s.width,
@@ -122,7 +124,7 @@ export class PreviewRenderer {
       settledSpp: f.settledSpp,
       accumulationHash: f.accumulationHash,
       scale: f.scale,
-    });
+    };
   }
 
   pause(): void {

@@ -97,6 +97,9 @@ function parseForForms(text: string): unknown {
   return errors.length ? null : parsed;
 }
 
+/** One empty list for every clean check, so readers of `issues` see no change when nothing changed. */
+const NO_ISSUES: SceneIssue[] = [];
+
 const isPromise = <T>(v: T | Promise<T>): v is Promise<T> => typeof (v as { then?: unknown }).then === "function";
 
 export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): WorkspaceStore {
@@ -118,7 +121,7 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
       if (s.revision !== revision || s.checkedRevision === revision) return; // stale: a newer text is waiting for its own answer
       set({
         checkedRevision: revision,
-        issues: result.ok ? [] : result.issues,
+        issues: result.ok ? NO_ISSUES : result.issues,
         lastGood: result.ok ? { scene: result.scene, text } : s.lastGood,
       });
     };
@@ -195,7 +198,7 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
       past: [],
       future: [],
       parsed: parseForForms(startText),
-      issues: known && !known.ok ? known.issues : [],
+      issues: known && !known.ok ? known.issues : NO_ISSUES,
       checkedRevision: known ? 0 : -1,
       lastGood: known?.ok ? { scene: known.scene, text: startText } : null,
       balances: {},

@@ -4,7 +4,7 @@
  * map, false colour) and sends a picture ready to draw, so a slider drag costs the page one putImageData
  * per picture and never a loop over the pixels.
  */
-import { createContext, useContext, useEffect, useRef, useState } from "react";
+import { createContext, useContext, useEffect, useMemo, useRef, useState } from "react";
 import { useStore } from "zustand";
 import { Button, cx } from "~/components/ui";
 import { DEFAULT_LOOK, type Picture } from "~/lib/workspace-image";
@@ -23,6 +23,8 @@ type PreviewCtx = {
   setMeterAt: (c: [number, number] | null) => void;
 };
 const PreviewContext = createContext<PreviewCtx>({ renderer: null, picture: null, lookSeq: 0, cursor: null, setCursor: () => {}, meterAt: null, setMeterAt: () => {} });
+/** The renderer alone: it never changes while the page is open, so progress readers do not re-render for each picture. */
+const RendererContext = createContext<PreviewRenderer | null>(null);
 
 const EMPTY_PREVIEW: PreviewState = {
   status: "idle", runId: 0, width: 0, height: 0, groupNames: [], picture: null, pictureVersion: 0, sppDone: 0, sppTarget: 0,
@@ -32,8 +34,12 @@ const EMPTY_PREVIEW: PreviewState = {
 const fallbackStore = { getState: () => EMPTY_PREVIEW, getInitialState: () => EMPTY_PREVIEW, subscribe: () => () => {}, setState: () => {} };
 
 export function usePreview<T>(selector: (s: PreviewState) => T): T {
-  const { renderer } = useContext(PreviewContext);
+  const renderer = useContext(RendererContext);
   return useStore(renderer?.store ?? fallbackStore, selector);
+}
+
+export function usePreviewRenderer(): PreviewRenderer | null {
+  return useContext(RendererContext);
 }
 
 export function usePreviewContext(): PreviewCtx {
@@ -53,7 +59,12 @@ export function PreviewProvider({ renderer, children }: { renderer: PreviewRende
   useEffect(() => {
     if (renderer) setLookSeq(renderer.setLook({ balances, view, display: { exposure, toneMap } }));
   }, [renderer, balances, view, exposure, toneMap]);
-  return <PreviewContext.Provider value={{ renderer, picture, lookSeq, cursor, setCursor, meterAt, setMeterAt }}>{children}</PreviewContext.Provider>;
+  const value = useMemo(() => ({ renderer, picture, lookSeq, cursor, setCursor, meterAt, setMeterAt }), [renderer, picture, lookSeq, cursor, meterAt]);
+  return (
+    <RendererContext.Provider value={renderer}>
+      <PreviewContext.Provider value={value}>{children}</PreviewContext.Provider>
+    </RendererContext.Provider>
+  );
 }
 
 export function PreviewCanvas() {
@@ -193,7 +204,7 @@ const NOISE_TARGETS: { value: number | null; label: string }[] = [
 ];
 
 export function ProgressStrip({ onRestart }: { onRestart: () => void }) {
-  const { renderer } = usePreviewContext();
+  const renderer = usePreviewRenderer();
   const p = usePreview((s) => s);
   const store = useWorkspaceStore();
   const scale = useWorkspace((s) => s.scale);

@@ -10,7 +10,7 @@ import { Button, Input, toast } from "~/components/ui";
 import { publishRenderUpload, type UploadProgress } from "~/lib/publish-render.client";
 import { renderKey } from "~/lib/workspace-render-key";
 import { useWorkspace, useWorkspaceStore } from "./context";
-import { usePreview, usePreviewContext } from "./preview";
+import { usePreview, usePreviewRenderer } from "./preview";
 
 type Phase =
   | { kind: "idle" }
@@ -51,7 +51,7 @@ function progressText(p: UploadProgress | undefined, fraction: number): string {
 
 export function PublishControls({ projectId, sceneId }: { projectId: string; sceneId: string }) {
   const store = useWorkspaceStore();
-  const { renderer } = usePreviewContext();
+  const renderer = usePreviewRenderer();
   const dirty = useWorkspace((s) => s.text !== s.base.text);
   const hasIssues = useWorkspace((s) => s.issues.length > 0);
   const scale = useWorkspace((s) => s.scale);
