@@ -2,6 +2,7 @@
 // The same code talks to the local fake and to any S3-compatible store.
 import type { Readable } from "node:stream";
 import {
+  AbortMultipartUploadCommand,
   CopyObjectCommand,
   CreateBucketCommand,
   DeleteObjectCommand,
@@ -90,9 +91,10 @@ export async function storageReachable(): Promise<boolean> {
 // ---------------------------------------------------------------------------------------------
 // streamed writes (large uploads never sit whole in the server's memory)
 
-/** Parts of a streamed upload: S3's minimum part size; at most two parts are in memory at once. */
+/** Parts of a streamed upload: S3's minimum part size. One part is sent while the next fills, so about two
+ * parts (plus socket buffers) are in memory whatever the file size; a browser upload is slower than that anyway. */
 export const STREAM_PART_BYTES = 5 * 1024 * 1024;
-const STREAM_PARTS_IN_FLIGHT = 2;
+const STREAM_PARTS_IN_FLIGHT = 1;
 
 /**
  * Write a stream to `key` as a multipart upload, so the object appears only once every part is stored: a
@@ -105,9 +107,20 @@ export async function putObjectStream(key: string, body: Readable, contentType =
     params: { Bucket: bucket(), Key: key, Body: body, ContentType: contentType },
     partSize: STREAM_PART_BYTES,
     queueSize: STREAM_PARTS_IN_FLIGHT,
-    leavePartsOnError: false,
+    // Parts are abandoned below instead, so that the reason the stream failed is the error reported
+    // (the library would otherwise report a failed abort in its place).
+    leavePartsOnError: true,
   });
-  await upload.done();
+  try {
+    await upload.done();
+  } catch (err) {
+    if (upload.uploadId) {
+      await s3()
+        .send(new AbortMultipartUploadCommand({ Bucket: bucket(), Key: key, UploadId: upload.uploadId }))
+        .catch((e: unknown) => console.error(`could not abandon the parts of ${key}:`, e instanceof Error ? e.message : e));
+    }
+    throw err;
+  }
 }
 
 /** Size of a stored object, or null when there is none. */
