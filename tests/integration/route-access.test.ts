@@ -30,6 +30,7 @@ import { createProject } from "~/models/project.server";
 import { createShareLink } from "~/models/share.server";
 import { publishRender } from "~/models/render.server";
 import { createScene } from "~/models/scene.server";
+import { startUpload } from "~/models/upload.server";
 import { createToken } from "~/models/token.server";
 import { createUser } from "~/models/user.server";
 import { db, dbPool } from "~/services/db.server";
@@ -49,6 +50,7 @@ type Fixtures = {
   memberUserId: string; // the viewer's user id, for member actions
   invitationToken: string; // an open invitation (to someone else) of the project
   resetToken: string; // an open password reset of the outsider
+  uploadId: string; // a pending staged asset upload started by the owner
 };
 
 type Allow = Ability | "signed-in" | "authenticated" | "everyone";
@@ -59,6 +61,8 @@ type Probe = {
   json?: (f: Fixtures) => unknown;
   allow: Allow;
   ghost404?: boolean;
+  /** For routes only particular callers may use whatever their role (a staged upload is its starter's alone). */
+  onlyCallers?: Caller[];
   /** For routes whose right answer is the same fixed status for everyone (the API's catch-all 404). */
   expectStatus?: number;
 };
@@ -138,6 +142,15 @@ const ACCESS: Record<string, Probe[] | "layout"> = {
     { method: "POST", url: PROJECT_VIEW("/assets"), form: () => ({ intent: "delete", sha256: "nope" }), allow: "upload" },
   ],
   "routes/projects.$projectId.assets.upload": [{ method: "POST", url: PROJECT_VIEW("/assets/upload"), form: () => ({}), allow: "upload" }],
+  // Staged uploads: anyone who may keep renders can start one (an empty description earns 400); the upload
+  // itself (fixture: the owner's pending asset upload) answers only its starter, by session (the owner's
+  // render-scope token cannot upload assets). A PUT of 2 bytes where 10 were declared earns 400.
+  "routes/projects.$projectId.uploads": [{ method: "POST", url: PROJECT_VIEW("/uploads"), json: () => ({}), allow: "render" }],
+  "routes/projects.$projectId.uploads.$uploadId.files.$slot": [
+    { method: "PUT", url: (f) => `/projects/${f.projectId}/uploads/${f.uploadId}/files/file`, json: () => ({}), allow: "upload", onlyCallers: ["owner"] },
+  ],
+  "routes/projects.$projectId.uploads.$uploadId.finish": [{ method: "POST", url: (f) => `/projects/${f.projectId}/uploads/${f.uploadId}/finish`, allow: "upload", onlyCallers: ["owner"] }],
+  "routes/projects.$projectId.uploads.$uploadId.cancel": [{ method: "POST", url: (f) => `/projects/${f.projectId}/uploads/${f.uploadId}/cancel`, allow: "upload", onlyCallers: ["owner"] }],
   "routes/projects.$projectId.assets.$sha": [{ url: (f) => `/projects/${f.projectId}/assets/${f.assetSha}`, allow: "view" }],
   "routes/projects.$projectId.assets[.]json": [{ url: PROJECT_VIEW("/assets.json"), allow: "view" }],
   "routes/projects.$projectId.pool": [
@@ -251,6 +264,11 @@ async function setUp(): Promise<void> {
     memberUserId: users.viewer!,
     invitationToken: (await createInvitation({ projectId: project.id, email: uniqueEmail("access-invitee"), role: "viewer", invitedBy: users.owner! })).token,
     resetToken: (await createPasswordReset(users.outsider!))!,
+    uploadId: await (async () => {
+      const started = await startUpload(project.id, users.owner!, { kind: "asset", name: "probe.obj", bytes: 10, sha256: "0".repeat(64) });
+      if (!started.ok || !("upload" in started)) throw new Error("could not start the fixture upload");
+      return started.upload.id;
+    })(),
   };
   ghost = {
     projectId: randomUUID(),
@@ -263,6 +281,7 @@ async function setUp(): Promise<void> {
     memberUserId: randomUUID(),
     invitationToken: randomBytes(32).toString("base64url"),
     resetToken: randomBytes(32).toString("base64url"),
+    uploadId: randomUUID(),
   };
   for (const scope of ["read", "render"] as const) {
     const { token } = await createToken({ userId: users.owner!, name: `access ${scope}`, scope, expiresAt: null });
@@ -333,7 +352,7 @@ describe("route access table", () => {
         }
         for (const caller of CALLERS) {
           const outcome = outcomes.get(caller)!;
-          const allowed = expectedAllowed(probe.allow, caller);
+          const allowed = probe.onlyCallers ? probe.onlyCallers.includes(caller) : expectedAllowed(probe.allow, caller);
           if (outcome.status >= 500) {
             failures.push(`${label} as ${caller}: server error ${outcome.status}`);
             cells.push(`${caller}=500`);
