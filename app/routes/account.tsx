@@ -2,7 +2,7 @@
 // Every change that could lock someone out asks for the current password first.
 import { data, Form, useNavigation } from "react-router";
 import { z } from "zod";
-import { Button, Field, Input, Notice, Panel, Select, Table, Td, Th } from "~/components/ui";
+import { Button, Field, Input, Notice, Panel, Select, Table, Td, Th, IntentButton } from "~/components/ui";
 import { EmailSchema, NameSchema, PasswordSchema } from "~/lib/account-schemas";
 import { fieldErrors, formObject } from "~/lib/form";
 import { SCOPE_DESCRIPTIONS, TOKEN_SCOPES } from "~/lib/roles";
@@ -214,12 +214,9 @@ export default function Account({ loaderData, actionData }: Route.ComponentProps
         title="Where you are signed in"
         actions={
           sessions.length > 1 ? (
-            <Form method="post">
-              <input type="hidden" name="intent" value="revoke-other-sessions" />
-              <Button type="submit" size="sm" tone="danger" disabled={busy}>
-                Sign out everywhere else
-              </Button>
-            </Form>
+            <IntentButton intent="revoke-other-sessions" tone="danger" disabled={busy}>
+              Sign out everywhere else
+            </IntentButton>
           ) : null
         }
       >
@@ -246,13 +243,9 @@ export default function Account({ loaderData, actionData }: Route.ComponentProps
                 <Td className="text-ink-muted">{when(s.createdAt)}</Td>
                 <Td className="text-ink-muted">{when(s.lastSeenAt)}</Td>
                 <Td className="text-right">
-                  <Form method="post">
-                    <input type="hidden" name="intent" value="revoke-session" />
-                    <input type="hidden" name="sessionId" value={s.id} />
-                    <Button type="submit" size="sm" tone="quiet" disabled={busy}>
-                      {s.current ? "Sign out" : "End"}
-                    </Button>
-                  </Form>
+                  <IntentButton intent="revoke-session" fields={{ sessionId: s.id }} tone="quiet" disabled={busy}>
+                    {s.current ? "Sign out" : "End"}
+                  </IntentButton>
                 </Td>
               </tr>
             ))}
@@ -337,13 +330,9 @@ export default function Account({ loaderData, actionData }: Route.ComponentProps
                   <Td className="text-ink-muted">{when(t.lastUsedAt)}</Td>
                   <Td className={t.expired ? "text-danger" : "text-ink-muted"}>{t.expiresAt ? `${t.expired ? "expired " : ""}${when(t.expiresAt)}` : "never"}</Td>
                   <Td className="text-right">
-                    <Form method="post">
-                      <input type="hidden" name="intent" value="revoke-token" />
-                      <input type="hidden" name="tokenId" value={t.id} />
-                      <Button type="submit" size="sm" tone="danger" disabled={busy} aria-label={`Revoke ${t.name}`}>
-                        Revoke
-                      </Button>
-                    </Form>
+                    <IntentButton intent="revoke-token" fields={{ tokenId: t.id }} tone="danger" disabled={busy} aria-label={`Revoke ${t.name}`}>
+                      Revoke
+                    </IntentButton>
                   </Td>
                 </tr>
               ))}

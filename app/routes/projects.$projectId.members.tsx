@@ -3,7 +3,7 @@
 import { data, Form, redirect, useNavigation } from "react-router";
 import { z } from "zod";
 import { RoleBadge } from "~/components/project/project-tabs";
-import { Button, Field, Input, Notice, Panel, Select, Table, Td, Th } from "~/components/ui";
+import { Button, Field, Input, Notice, Panel, Select, Table, Td, Th, IntentButton } from "~/components/ui";
 import { EmailSchema } from "~/lib/account-schemas";
 import { fieldErrors, formObject } from "~/lib/form";
 import { ROLE_DESCRIPTIONS, ROLES } from "~/lib/roles";
@@ -184,20 +184,13 @@ export default function Members({ loaderData, actionData }: Route.ComponentProps
                 </Td>
                 <Td className="text-right">
                   {m.userId === me ? (
-                    <Form method="post">
-                      <input type="hidden" name="intent" value="leave" />
-                      <Button type="submit" size="sm" tone="danger" disabled={busy}>
-                        Leave project
-                      </Button>
-                    </Form>
+                    <IntentButton intent="leave" tone="danger" disabled={busy}>
+                      Leave project
+                    </IntentButton>
                   ) : isOwner ? (
-                    <Form method="post">
-                      <input type="hidden" name="intent" value="remove" />
-                      <input type="hidden" name="userId" value={m.userId} />
-                      <Button type="submit" size="sm" tone="danger" disabled={busy} aria-label={`Remove ${m.name}`}>
-                        Remove
-                      </Button>
-                    </Form>
+                    <IntentButton intent="remove" fields={{ userId: m.userId }} tone="danger" disabled={busy} aria-label={`Remove ${m.name}`}>
+                      Remove
+                    </IntentButton>
                   ) : null}
                 </Td>
               </tr>
@@ -245,13 +238,9 @@ export default function Members({ loaderData, actionData }: Route.ComponentProps
                       </Td>
                       <Td className="text-ink-muted">expires {new Date(i.expiresAt).toLocaleDateString()}</Td>
                       <Td className="text-right">
-                        <Form method="post">
-                          <input type="hidden" name="intent" value="revoke-invitation" />
-                          <input type="hidden" name="invitationId" value={i.id} />
-                          <Button type="submit" size="sm" tone="quiet" disabled={busy}>
-                            Withdraw
-                          </Button>
-                        </Form>
+                        <IntentButton intent="revoke-invitation" fields={{ invitationId: i.id }} tone="quiet" disabled={busy}>
+                          Withdraw
+                        </IntentButton>
                       </Td>
                     </tr>
                   ))}

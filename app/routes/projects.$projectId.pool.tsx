@@ -3,7 +3,7 @@
 import { useEffect } from "react";
 import { data, Form, Link, useNavigation, useRevalidator } from "react-router";
 import { z } from "zod";
-import { Button, Field, Input, Notice, Panel, Select, Table, Td, Th } from "~/components/ui";
+import { Button, Field, Input, Notice, Panel, Select, Table, Td, Th, IntentButton } from "~/components/ui";
 import { cancelPoolRender, getPoolRender, listPoolRenders } from "~/models/render-job.server";
 import { listScenes } from "~/models/scene.server";
 import { ApiError } from "~/services/api.server";
@@ -221,13 +221,9 @@ export default function Pool({ loaderData, actionData }: Route.ComponentProps) {
                         </a>
                       </span>
                     ) : (r.status === "queued" || r.status === "running") && loaderData.canRender ? (
-                      <Form method="post">
-                        <input type="hidden" name="intent" value="cancel" />
-                        <input type="hidden" name="renderId" value={r.id} />
-                        <Button type="submit" size="sm" tone="danger" disabled={busy}>
-                          Cancel
-                        </Button>
-                      </Form>
+                      <IntentButton intent="cancel" fields={{ renderId: r.id }} tone="danger" disabled={busy}>
+                        Cancel
+                      </IntentButton>
                     ) : null}
                   </Td>
                 </tr>

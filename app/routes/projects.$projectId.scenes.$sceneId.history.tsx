@@ -4,7 +4,7 @@ import { useState } from "react";
 import { data, Form, Link, redirect, useNavigation } from "react-router";
 import { z } from "zod";
 import { VersionGraph } from "~/components/scene/version-graph";
-import { Button, buttonClass, Field, Input, Notice, Panel, Select, Table, Td, Th } from "~/components/ui";
+import { Button, buttonClass, Field, Input, Notice, Panel, Select, Table, Td, Th, IntentButton } from "~/components/ui";
 import { copyAssetsForScene } from "~/models/asset.server";
 import { logActivity } from "~/models/activity.server";
 import { listProjectsForUser } from "~/models/project.server";
@@ -224,14 +224,9 @@ export default function SceneHistory({ loaderData, actionData }: Route.Component
                         Bundle
                       </a>
                       {canEdit && v.id !== head && head ? (
-                        <Form method="post">
-                          <input type="hidden" name="intent" value="restore" />
-                          <input type="hidden" name="versionId" value={v.id} />
-                          <input type="hidden" name="headId" value={head} />
-                          <Button type="submit" size="sm" tone="quiet" disabled={busy}>
-                            Restore
-                          </Button>
-                        </Form>
+                        <IntentButton intent="restore" fields={{ versionId: v.id, headId: head }} tone="quiet" disabled={busy}>
+                          Restore
+                        </IntentButton>
                       ) : null}
                       {forkTargets.length ? (
                         <Button size="sm" tone="quiet" onClick={() => setForkAt(forkAt === v.id ? null : v.id)} aria-expanded={forkAt === v.id}>

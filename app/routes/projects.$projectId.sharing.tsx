@@ -2,7 +2,7 @@
 // expiring), and scene bundles: import a bundle exported from another project or installation.
 import { data, Form, Link, redirect, useNavigation } from "react-router";
 import { z } from "zod";
-import { Button, buttonClass, Notice, Panel, Select, Table, Td, Th, toast } from "~/components/ui";
+import { Button, buttonClass, Notice, Panel, Select, Table, Td, Th, toast, IntentButton } from "~/components/ui";
 import { logActivity } from "~/models/activity.server";
 import { importBundle } from "~/models/bundle.server";
 import { listScenes, listVersions } from "~/models/scene.server";
@@ -209,13 +209,9 @@ export default function Sharing({ loaderData, actionData }: Route.ComponentProps
                           <Link className={buttonClass("quiet", "sm")} to={`/s/${l.token}`}>
                             Open
                           </Link>
-                          <Form method="post">
-                            <input type="hidden" name="intent" value="revoke" />
-                            <input type="hidden" name="linkId" value={l.id} />
-                            <Button type="submit" size="sm" tone="danger" disabled={busy}>
-                              Revoke
-                            </Button>
-                          </Form>
+                          <IntentButton intent="revoke" fields={{ linkId: l.id }} tone="danger" disabled={busy}>
+                            Revoke
+                          </IntentButton>
                         </div>
                       ) : null}
                     </Td>
