@@ -165,10 +165,13 @@ export async function runBench(opts: BenchOptions): Promise<BenchFigures> {
   // 4. Worker scaling on one scene through the progressive session (the path the app and CLI use).
   const scaleFile = loaded.has("lightbox-spheres.json") ? "lightbox-spheres.json" : [...loaded.keys()][0];
   const rows: ScalingRow[] = [];
-  const scalePasses = tiny ? 2 : 4;
+  // 16 passes in units of 4 (renderProgressive's default, as the app and the CLI use it): 540 units
+  // of about 17 ms each on this scene, enough for the dynamic scheduler to balance 1..N workers.
+  const scalePasses = tiny ? 2 : 16;
+  const scaleUnitPasses = tiny ? 1 : 4;
   if (scaleFile) {
     const c = loaded.get(scaleFile)!;
-    log(`\nWorker scaling (${scaleFile}, ${c.width}×${c.height}, ${scalePasses} passes, 32-px tiles, 1 pass per unit; Node worker_threads; wall clock, load average now ${loadavg()[0]!.toFixed(1)})`);
+    log(`\nWorker scaling (${scaleFile}, ${c.width}×${c.height}, ${scalePasses} passes, 32-px tiles, ${scaleUnitPasses} passes per unit; Node worker_threads; wall clock, load average now ${loadavg()[0]!.toFixed(1)})`);
     for (let k = 1; k <= opts.workers; k++) {
       const pool = createNodePool(k);
       try {
@@ -177,7 +180,7 @@ export async function runBench(opts: BenchOptions): Promise<BenchFigures> {
         await renderProgressive(c, { pool, passes: 1, passesPerUnit: 1, tileSize: 32 }).done;
         const c0 = process.cpuUsage();
         const t0 = performance.now();
-        const r = await renderProgressive(c, { pool, passes: scalePasses, passesPerUnit: 1, tileSize: 32 }).done;
+        const r = await renderProgressive(c, { pool, passes: scalePasses, passesPerUnit: scaleUnitPasses, tileSize: 32 }).done;
         const cpu = process.cpuUsage(c0);
         // Cores' worth of CPU the process actually got: on a busy machine the scheduler may give a
         // whole process one share however many threads it runs, which caps any speedup.
