@@ -53,13 +53,33 @@ describe("assets and share links", () => {
 
     // Upload through the drop zone's file input: a broken mesh is refused naming its line; the map is stored.
     await gotoHydrated(page, `/projects/${owner.projectId}/assets`);
+    // Record the upload progress events the browser fires for the staged file PUT.
+    await page.evaluate(() => {
+      const w = window as unknown as { progressEvents: { url: string; loaded: number; total: number }[] };
+      w.progressEvents = [];
+      const open = XMLHttpRequest.prototype.open;
+      XMLHttpRequest.prototype.open = function (this: XMLHttpRequest, method: string, url: string | URL, ...rest: unknown[]) {
+        this.upload.addEventListener("progress", (e) => w.progressEvents.push({ url: String(url), loaded: e.loaded, total: e.total }));
+        return (open as (...a: unknown[]) => void).call(this, method, url, ...rest);
+      } as typeof XMLHttpRequest.prototype.open;
+    });
     await page.getByTestId("asset-input").setInputFiles([
       { name: "broken.obj", mimeType: "text/plain", buffer: Buffer.from("v 0 0 0\nv 1 0 0\nf 1 2 7\n") },
       { name: "lightbox.hdr", mimeType: "application/octet-stream", buffer: readFileSync("scenes/maps/lightbox.hdr") },
     ]);
     await page.locator('[data-testid="upload-item"][data-status="error"]').waitFor();
     await expect(page.locator('[data-testid="upload-item"][data-status="error"]').textContent()).resolves.toMatch(/broken\.obj: line 3/);
-    await page.locator('[data-testid="upload-item"][data-status="done"]').waitFor({ timeout: 60_000 });
+    const done = page.locator('[data-testid="upload-item"][data-status="done"]');
+    await done.waitFor({ timeout: 60_000 });
+    // The staged upload's progress reached every byte of the map, in the browser's own events and on screen.
+    const mapBytes = readFileSync("scenes/maps/lightbox.hdr").length;
+    const events = await page.evaluate(() => (window as unknown as { progressEvents: { url: string; loaded: number; total: number }[] }).progressEvents);
+    expect(events.length).toBeGreaterThan(0);
+    expect(events.every((e) => /\/uploads\/[0-9a-f-]{36}\/files\/file$/.test(e.url))).toBe(true);
+    expect(Math.max(...events.map((e) => e.loaded))).toBe(mapBytes);
+    expect(events.at(-1)!.total).toBe(mapBytes);
+    expect(await done.getAttribute("data-sent")).toBe(String(mapBytes));
+    expect(await done.getByTestId("upload-progress").getAttribute("value")).toBe("1");
     await page.getByTestId("asset-row").first().waitFor();
     await expect(page.getByTestId("asset-row").first().textContent()).resolves.toMatch(/128×64 px/);
     const [map] = await listAssets(owner.projectId);

@@ -15,10 +15,11 @@ import { validateScene } from "@tracer/scene/validate";
 import { TRACER_VERSION } from "@tracer/version";
 import { createNodePool } from "@tracer/workers/node-pool";
 import { passesOf, renderProgressive } from "@tracer/workers/render-session";
-import { memberships, projects, renders, users } from "~/db/schema";
+import { memberships, projects, renders, uploads, users } from "~/db/schema";
 import { getRender } from "~/models/render.server";
 import { createScene, getHead } from "~/models/scene.server";
 import { db } from "~/services/db.server";
+import { listKeys } from "~/services/storage.server";
 import { hashPassword } from "~/services/password.server";
 import { gotoHydrated, newPerson, screenshot } from "../support/browser";
 
@@ -141,31 +142,54 @@ describe("publishing a render from the workspace", () => {
     await expect.poll(() => page.getByTestId("publish-blocker").innerText()).toMatch(/restart|full pass/);
     await expect.poll(() => page.getByTestId("preview").getAttribute("data-accumulation-hash"), { timeout: 120_000 }).toBe(await expectedHash);
 
-    // The connection drops during the upload.
-    await page.route("**/renders/publish", (route) => route.abort("connectionreset"));
+    // The connection drops while a file is on its way (the staged upload's PUTs), after the upload started.
+    const filePuts = "**/uploads/*/files/**";
+    let attempts = 0;
+    await page.route(filePuts, (route) => (++attempts >= 2 ? route.abort("connectionreset") : route.continue()));
     await expect.poll(() => page.getByTestId("publish-render").isDisabled()).toBe(false);
     expect(await page.getByTestId("publish-blocker").count()).toBe(0);
     await page.getByTestId("publish-render").click();
-    await expect.poll(() => page.getByTestId("publish-error").innerText(), { timeout: 30_000 }).toMatch(/nothing was published/);
+    await expect.poll(() => page.getByTestId("publish-error").innerText(), { timeout: 30_000 }).toMatch(/connection failed during the upload; nothing was published/);
+    await page.unroute(filePuts);
+    expect(attempts).toBe(2);
     expect(await rendersOf(projectId)).toEqual([]);
-    await page.unroute("**/renders/publish");
+    // The page gave the upload up: it is marked failed and the file that did arrive is no longer staged.
+    const abandoned = await db().select().from(uploads).where(eq(uploads.projectId, projectId));
+    expect(abandoned.map((u) => u.status)).toEqual(["failed"]);
+    await expect.poll(() => listKeys(`staging/${abandoned[0]!.id}/`)).toEqual([]);
   });
 
   it("an editor publishes the render with progress; the library lists it and the stored state hashes like Node's", async () => {
     const { page } = e;
     // Record whether the upload's progress bar was ever on screen (a small upload can finish between polls).
+    // …and every upload progress event the browser fires for the file PUTs.
     await page.evaluate(() => {
-      const w = window as unknown as { sawProgress: boolean };
+      const w = window as unknown as { sawProgress: boolean; progressEvents: { url: string; loaded: number; total: number }[] };
       w.sawProgress = false;
+      w.progressEvents = [];
       new MutationObserver(() => {
         if (document.querySelector("[data-testid=publish-progress]")) w.sawProgress = true;
       }).observe(document.body, { childList: true, subtree: true });
+      const open = XMLHttpRequest.prototype.open;
+      XMLHttpRequest.prototype.open = function (this: XMLHttpRequest, method: string, url: string | URL, ...rest: unknown[]) {
+        this.upload.addEventListener("progress", (e) => w.progressEvents.push({ url: String(url), loaded: e.loaded, total: e.total }));
+        return (open as (...a: unknown[]) => void).call(this, method, url, ...rest);
+      } as typeof XMLHttpRequest.prototype.open;
     });
     await page.getByLabel("Title").fill("Lamp and window, first look");
     await page.getByTestId("publish-render").click();
     const result = page.getByTestId("publish-result");
     await result.waitFor({ timeout: 60_000 });
     expect(await page.evaluate(() => (window as unknown as { sawProgress: boolean }).sawProgress)).toBe(true);
+    // Each file's progress events reach its full size: pfm, png, thumb, hdr, state and one per light group.
+    const events = await page.evaluate(() => (window as unknown as { progressEvents: { url: string; loaded: number; total: number }[] }).progressEvents);
+    const byFile = new Map<string, { loaded: number; total: number }>();
+    for (const ev of events) {
+      const file = ev.url.split("/files/")[1]!;
+      byFile.set(file, { loaded: Math.max(ev.loaded, byFile.get(file)?.loaded ?? 0), total: ev.total });
+    }
+    expect([...byFile.keys()].sort()).toEqual(["group-lamp", "group-window", "hdr", "pfm", "png", "state", "thumb"]);
+    for (const [file, p] of byFile) expect(p.loaded, file).toBe(p.total);
     expect(await result.innerText()).toMatch(/Published at 8 spp/);
     await expect.poll(() => page.getByRole("status").filter({ hasText: "published to the library" }).count()).toBeGreaterThan(0);
     await screenshot(page, "workspace-published");
@@ -182,6 +206,9 @@ describe("publishing a render from the workspace", () => {
     expect(stored!.integrator).toBe("path");
     expect(stored!.tracerVersion).toBe(TRACER_VERSION);
     expect(stored!.title).toBe("Lamp and window, first look");
+    const finished = await db().select().from(uploads).where(eq(uploads.resultId, renderId));
+    expect(finished.map((u) => u.status)).toEqual(["finished"]);
+    expect(await listKeys(`staging/${finished[0]!.id}/`)).toEqual([]);
     expect(stored!.createdBy).toBe(editor.id);
     expect(stored!.accumulationHash).toBe(expected);
     expect(await result.getAttribute("data-accumulation-hash")).toBe(expected);
@@ -221,6 +248,11 @@ describe("publishing a render from the workspace", () => {
         return (await fetch(url, { method: "POST", body: form })).status;
       }, `/projects/${projectId}/renders/publish`);
       expect(status).toBe(404);
+      const staged = await c.page.evaluate(async (url) => {
+        const r = await fetch(url, { method: "POST", headers: { "content-type": "application/json" }, body: JSON.stringify({ kind: "render", sceneId: "x", meta: {}, files: [] }) });
+        return r.status;
+      }, `/projects/${projectId}/uploads`);
+      expect(staged).toBe(404);
       expect((await rendersOf(projectId)).length).toBe(1);
     } finally {
       await c.close();
