@@ -159,17 +159,21 @@ function boxEntry(
   ix: number,
   iy: number,
   iz: number,
+  nxo: number,
+  nyo: number,
+  nzo: number,
   tmax: number,
 ): number {
-  // Slabs are chosen by the direction's sign (not by swapping), so an empty box (min > max) always misses.
-  let t0 = ((ix < 0 ? nodes[nb + 3] : nodes[nb]) - ox) * ix;
-  let t1 = ((ix < 0 ? nodes[nb] : nodes[nb + 3]) - ox) * ix;
-  const y0 = ((iy < 0 ? nodes[nb + 4] : nodes[nb + 1]) - oy) * iy;
-  const y1 = ((iy < 0 ? nodes[nb + 1] : nodes[nb + 4]) - oy) * iy;
+  // Slabs are chosen by the direction's sign (word offsets fixed once per ray, nothing swapped per
+  // box), so an empty box (min > max) always misses. The far slab's word is 3 - nxo, 5 - nyo, 7 - nzo.
+  let t0 = (nodes[nb + nxo] - ox) * ix;
+  let t1 = (nodes[nb + 3 - nxo] - ox) * ix;
+  const y0 = (nodes[nb + nyo] - oy) * iy;
+  const y1 = (nodes[nb + 5 - nyo] - oy) * iy;
   if (y0 > t0) t0 = y0;
   if (y1 < t1) t1 = y1;
-  const z0 = ((iz < 0 ? nodes[nb + 5] : nodes[nb + 2]) - oz) * iz;
-  const z1 = ((iz < 0 ? nodes[nb + 2] : nodes[nb + 5]) - oz) * iz;
+  const z0 = (nodes[nb + nzo] - oz) * iz;
+  const z1 = (nodes[nb + 7 - nzo] - oz) * iz;
   if (z0 > t0) t0 = z0;
   if (z1 < t1) t1 = z1;
   // NaN (a ray lying in a slab plane with zero direction) fails these tests and leaves the slab open
@@ -198,21 +202,23 @@ export function traceRay(s: CompiledScene, ray: Ray, hit: Hit, ts: TraceScratch,
   const dx = ray.dx, dy = ray.dy, dz = ray.dz;
   const time = ray.time;
   const ix = 1 / dx, iy = 1 / dy, iz = 1 / dz;
+  // Near-slab word of each axis: min (0..2) for a positive direction, max (3..5) for a negative one.
+  const nxo = ix < 0 ? 3 : 0, nyo = iy < 0 ? 4 : 1, nzo = iz < 0 ? 5 : 2;
   let tmax = ray.tmax;
   let best = -1;
   let bu = 0, bv = 0;
   let sp = 0;
   let node = 0;
   if (s.primCount === 0) return false;
-  if (boxEntry(nodes, 0, ox, oy, oz, ix, iy, iz, tmax) === Infinity) return false;
+  if (boxEntry(nodes, 0, ox, oy, oz, ix, iy, iz, nxo, nyo, nzo, tmax) === Infinity) return false;
   for (;;) {
     const nb = node * NODE_WORDS;
     const count = words[nb + 7] >>> 2;
     if (count === 0) {
       const left = node + 1;
       const right = words[nb + 6];
-      const tl = boxEntry(nodes, left * NODE_WORDS, ox, oy, oz, ix, iy, iz, tmax);
-      const tr = boxEntry(nodes, right * NODE_WORDS, ox, oy, oz, ix, iy, iz, tmax);
+      const tl = boxEntry(nodes, left * NODE_WORDS, ox, oy, oz, ix, iy, iz, nxo, nyo, nzo, tmax);
+      const tr = boxEntry(nodes, right * NODE_WORDS, ox, oy, oz, ix, iy, iz, nxo, nyo, nzo, tmax);
       if (tl !== Infinity) {
         if (tr !== Infinity) {
           if (tr < tl) {
