@@ -17,6 +17,11 @@ function checker(): Remote<CheckApi> {
   return remote;
 }
 
+/** Start the worker ahead of the first edit, so that edit's check does not wait for the worker to load. */
+export function startChecker(): void {
+  checker();
+}
+
 /** Scene text, or an already parsed scene value, checked against the scene format in the worker. */
 export function checkScene(input: unknown): Promise<SceneResult> {
   return checker().check(input);

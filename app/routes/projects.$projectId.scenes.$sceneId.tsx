@@ -13,7 +13,7 @@ import { SceneForms } from "~/components/workspace/scene-forms";
 import { IssueList } from "~/components/workspace/issue-list";
 import type { EditorHandle } from "~/components/workspace/scene-editor.client";
 import { Button, cx } from "~/components/ui";
-import { checkScene } from "~/lib/workspace-check";
+import { checkScene, startChecker } from "~/lib/workspace-check";
 import { clearDraft, loadDraft, saveDraft } from "~/lib/workspace-draft";
 import { renderKey, type PreviewRenderer } from "~/lib/workspace-render";
 import { logActivity } from "~/models/activity.server";
@@ -160,6 +160,7 @@ export default function Workspace({ loaderData }: Route.ComponentProps) {
   // Restore a local draft once, after hydration (storage exists only in the browser).
   useEffect(() => {
     if (!canEdit) return;
+    startChecker();
     const draft = loadDraft(window.localStorage, scene.id);
     if (!draft || draft.text === store.getState().text) return;
     store.setState({ base: draft.base });
