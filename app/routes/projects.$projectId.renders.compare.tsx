@@ -1,5 +1,7 @@
 // Two renders side by side: a wipe, a false-colour difference, RMSE/PSNR/SSIM on linear or displayed values,
 // the diff of their scene versions, and a bit-exact reproduction check of either render in this browser.
+// A belongs to this project; B may be in any project the person can see (a fork's render against its origin's),
+// each authorised on its own, so a render of a project they cannot see is the same 404 as a made-up id.
 import { decode as decodePng } from "fast-png";
 import { useRef, useState } from "react";
 import { Link } from "react-router";
@@ -13,6 +15,7 @@ import { diffScenes } from "~/lib/scene-diff";
 import { getRender, type RenderListItem } from "~/models/render.server";
 import { getVersion } from "~/models/scene.server";
 import { readRenderFile } from "~/services/render-files.server";
+import { requireAccess } from "~/services/permissions.server";
 import { requireInProject } from "~/services/project-access.server";
 import type { Route } from "./+types/projects.$projectId.renders.compare";
 
@@ -41,7 +44,8 @@ function dataUrl(png: Uint8Array): string {
 export async function loader({ request, params }: Route.LoaderArgs) {
   const url = new URL(request.url);
   const ids = [url.searchParams.get("a") ?? "", url.searchParams.get("b") ?? ""];
-  for (const id of ids) await requireInProject(request, params.projectId, { renderId: id }, "view");
+  await requireInProject(request, params.projectId, { renderId: ids[0]! }, "view");
+  await requireAccess(request, { renderId: ids[1]! }, "view");
   const [a, b] = (await Promise.all(ids.map((id) => getRender(id)))) as [RenderListItem, RenderListItem];
   const mode: MetricMode = url.searchParams.get("mode") === "display" ? "display" : "linear";
   const [va, vb] = await Promise.all([getVersion(a.versionId), getVersion(b.versionId)]);
@@ -74,7 +78,9 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     authorName: r.authorName,
     createdAt: r.createdAt.toISOString(),
     scene: v?.scene ?? null,
-    png: `/projects/${params.projectId}/renders/${r.id}/files/png`,
+    projectId: r.projectId,
+    otherProject: r.projectId !== params.projectId,
+    png: `/projects/${r.projectId}/renders/${r.id}/files/png`,
   });
 
   return {
@@ -171,7 +177,7 @@ export default function CompareRenders({ loaderData }: Route.ComponentProps) {
 
       <div className="grid gap-3 lg:grid-cols-2">
         {[d.a, d.b].map((side, i) => (
-          <Panel key={side.id} title={`${i === 0 ? "A" : "B"}: ${side.label}`}>
+          <Panel key={side.id} title={`${i === 0 ? "A" : "B"}: ${side.label}${side.otherProject ? " (another project)" : ""}`}>
             <img src={side.png} alt={`Render ${i === 0 ? "A" : "B"}`} className="w-full rounded border border-line [image-rendering:pixelated]" />
             <dl className="mt-2 grid grid-cols-2 gap-x-3 text-xs text-ink-muted">
               <dt>spp · seed</dt>
@@ -194,7 +200,7 @@ export default function CompareRenders({ loaderData }: Route.ComponentProps) {
               </dd>
             </dl>
             <div className="mt-3">
-              <Reproduce side={side} projectId={d.projectId} />
+              <Reproduce side={side} projectId={side.projectId} />
             </div>
           </Panel>
         ))}
