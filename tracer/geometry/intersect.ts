@@ -44,25 +44,23 @@ export class TraceScratch {
   readonly stack = new Uint32Array(TRAVERSAL_STACK_SIZE);
   /** entry distance of each pending node */
   readonly dist = new Float64Array(TRAVERSAL_STACK_SIZE);
-  // candidate hit parameters written by intersectPrim
-  cu = 0;
-  cv = 0;
+  /**
+   * intersectPrim's ray (ox, oy, oz, dx, dy, dz, time, tmax) and result (t, u, v). Passed through
+   * typed arrays because a call that is not inlined boxes every double argument and result on the
+   * heap: eleven allocations per primitive test.
+   */
+  readonly primRay = new Float64Array(8);
+  readonly primHit = new Float64Array(3);
 }
 
-/** Distance to primitive `p` along the ray, in (0, tmax), or Infinity. Writes parameters to ts.cu/cv. */
-export function intersectPrim(
-  s: CompiledScene,
-  p: number,
-  ox: number,
-  oy: number,
-  oz: number,
-  dx: number,
-  dy: number,
-  dz: number,
-  time: number,
-  tmax: number,
-  ts: TraceScratch,
-): number {
+/**
+ * Intersects primitive `p` with the ray in ts.primRay. On a hit in (0, tmax) writes (t, u, v) to
+ * ts.primHit and returns true (u, v: triangle barycentrics or rect parameters, 0 otherwise).
+ */
+export function intersectPrim(s: CompiledScene, p: number, ts: TraceScratch): boolean {
+  const ray = ts.primRay, out = ts.primHit;
+  let ox = ray[0], oy = ray[1], oz = ray[2];
+  const dx = ray[3], dy = ray[4], dz = ray[5], time = ray[6], tmax = ray[7];
   const info = s.primInfo;
   const ib = p * PRIM_INFO_STRIDE;
   const motion = info[ib + 3];
@@ -83,21 +81,20 @@ export function intersectPrim(
     const pvy = dz * e2x - dx * e2z;
     const pvz = dx * e2y - dy * e2x;
     const det = e1x * pvx + e1y * pvy + e1z * pvz;
-    if (det === 0) return Infinity;
+    if (det === 0) return false;
     const inv = 1 / det;
     const tx = ox - g[o], ty = oy - g[o + 1], tz = oz - g[o + 2];
     const u = (tx * pvx + ty * pvy + tz * pvz) * inv;
-    if (u < 0 || u > 1) return Infinity;
+    if (u < 0 || u > 1) return false;
     const qx = ty * e1z - tz * e1y;
     const qy = tz * e1x - tx * e1z;
     const qz = tx * e1y - ty * e1x;
     const v = (dx * qx + dy * qy + dz * qz) * inv;
-    if (v < 0 || u + v > 1) return Infinity;
+    if (v < 0 || u + v > 1) return false;
     const t = (e2x * qx + e2y * qy + e2z * qz) * inv;
-    if (!(t > 0 && t < tmax)) return Infinity;
-    ts.cu = u;
-    ts.cv = v;
-    return t;
+    if (!(t > 0 && t < tmax)) return false;
+    out[0] = t; out[1] = u; out[2] = v;
+    return true;
   }
   if (kind === PRIM_SPHERE) {
     // Geometric form with the closest-approach vector (better conditioned than the textbook quadratic).
@@ -106,44 +103,45 @@ export function intersectPrim(
     const b = fx * dx + fy * dy + fz * dz;
     const lx = fx - b * dx, ly = fy - b * dy, lz = fz - b * dz;
     const disc = r * r - (lx * lx + ly * ly + lz * lz);
-    if (disc < 0) return Infinity;
+    if (disc < 0) return false;
     const q = Math.sqrt(disc);
     let t = -b - q;
     if (!(t > 0)) t = -b + q;
-    if (!(t > 0 && t < tmax)) return Infinity;
-    return t;
+    if (!(t > 0 && t < tmax)) return false;
+    out[0] = t; out[1] = 0; out[2] = 0;
+    return true;
   }
   if (kind === PRIM_RECT) {
     const wx = g[o + 9], wy = g[o + 10], wz = g[o + 11];
     const den = wx * dx + wy * dy + wz * dz;
-    if (den === 0) return Infinity;
+    if (den === 0) return false;
     const t = (wx * (g[o] - ox) + wy * (g[o + 1] - oy) + wz * (g[o + 2] - oz)) / den;
-    if (!(t > 0 && t < tmax)) return Infinity;
+    if (!(t > 0 && t < tmax)) return false;
     const hx = ox + t * dx - g[o], hy = oy + t * dy - g[o + 1], hz = oz + t * dz - g[o + 2];
     const ux = g[o + 3], uy = g[o + 4], uz = g[o + 5];
     const vx = g[o + 6], vy = g[o + 7], vz = g[o + 8];
     // parameters in the dual basis: a = w·(h × v), b = w·(u × h)
     const a = wx * (hy * vz - hz * vy) + wy * (hz * vx - hx * vz) + wz * (hx * vy - hy * vx);
-    if (a < 0 || a > 1) return Infinity;
+    if (a < 0 || a > 1) return false;
     const bb = wx * (uy * hz - uz * hy) + wy * (uz * hx - ux * hz) + wz * (ux * hy - uy * hx);
-    if (bb < 0 || bb > 1) return Infinity;
-    ts.cu = a;
-    ts.cv = bb;
-    return t;
+    if (bb < 0 || bb > 1) return false;
+    out[0] = t; out[1] = a; out[2] = bb;
+    return true;
   }
   if (kind === PRIM_DISK) {
     const nx = g[o + 3], ny = g[o + 4], nz = g[o + 5];
     const den = nx * dx + ny * dy + nz * dz;
-    if (den === 0) return Infinity;
+    if (den === 0) return false;
     const cx = g[o], cy = g[o + 1], cz = g[o + 2];
     const t = (nx * (cx - ox) + ny * (cy - oy) + nz * (cz - oz)) / den;
-    if (!(t > 0 && t < tmax)) return Infinity;
+    if (!(t > 0 && t < tmax)) return false;
     const hx = ox + t * dx - cx, hy = oy + t * dy - cy, hz = oz + t * dz - cz;
     const r = g[o + 6];
-    if (hx * hx + hy * hy + hz * hz > r * r) return Infinity;
-    return t;
+    if (hx * hx + hy * hy + hz * hz > r * r) return false;
+    out[0] = t; out[1] = 0; out[2] = 0;
+    return true;
   }
-  return Infinity;
+  return false;
 }
 
 /**
@@ -217,8 +215,37 @@ export function traceRay(s: CompiledScene, ray: Ray, hit: Hit, ts: TraceScratch,
     if (count === 0) {
       const left = node + 1;
       const right = words[nb + 6];
-      const tl = boxEntry(nodes, left * NODE_WORDS, ox, oy, oz, ix, iy, iz, nxo, nyo, nzo, tmax);
-      const tr = boxEntry(nodes, right * NODE_WORDS, ox, oy, oz, ix, iy, iz, nxo, nyo, nzo, tmax);
+      // boxEntry for both children, written out here: TurboFan does not inline it into a function
+      // this large, and a call boxes its nine double arguments and its result on the heap.
+      let tl = Infinity, tr = Infinity;
+      {
+        const lb = left * NODE_WORDS;
+        let t0 = (nodes[lb + nxo] - ox) * ix;
+        let t1 = (nodes[lb + 3 - nxo] - ox) * ix;
+        const y0 = (nodes[lb + nyo] - oy) * iy;
+        const y1 = (nodes[lb + 5 - nyo] - oy) * iy;
+        if (y0 > t0) t0 = y0;
+        if (y1 < t1) t1 = y1;
+        const z0 = (nodes[lb + nzo] - oz) * iz;
+        const z1 = (nodes[lb + 7 - nzo] - oz) * iz;
+        if (z0 > t0) t0 = z0;
+        if (z1 < t1) t1 = z1;
+        if (t0 <= t1 * 1.0000001 + 1e-12 && t1 >= 0 && t0 < tmax) tl = t0 > 0 ? t0 : 0;
+      }
+      {
+        const rb = right * NODE_WORDS;
+        let t0 = (nodes[rb + nxo] - ox) * ix;
+        let t1 = (nodes[rb + 3 - nxo] - ox) * ix;
+        const y0 = (nodes[rb + nyo] - oy) * iy;
+        const y1 = (nodes[rb + 5 - nyo] - oy) * iy;
+        if (y0 > t0) t0 = y0;
+        if (y1 < t1) t1 = y1;
+        const z0 = (nodes[rb + nzo] - oz) * iz;
+        const z1 = (nodes[rb + 7 - nzo] - oz) * iz;
+        if (z0 > t0) t0 = z0;
+        if (z1 < t1) t1 = z1;
+        if (t0 <= t1 * 1.0000001 + 1e-12 && t1 >= 0 && t0 < tmax) tr = t0 > 0 ? t0 : 0;
+      }
       if (tl !== Infinity) {
         if (tr !== Infinity) {
           if (tr < tl) {
@@ -243,7 +270,7 @@ export function traceRay(s: CompiledScene, ray: Ray, hit: Hit, ts: TraceScratch,
         const p = primIdx[i];
         if (p === skip) continue;
         const ib = p * PRIM_INFO_STRIDE;
-        let t = Infinity;
+        let t = Infinity, cu = 0, cv = 0;
         if (info[ib] === PRIM_TRIANGLE && info[ib + 3] < 0) {
           // static triangle, inlined (Möller & Trumbore 1997, two-sided)
           const o = p * PRIM_GEOM_STRIDE;
@@ -265,16 +292,19 @@ export function traceRay(s: CompiledScene, ray: Ray, hit: Hit, ts: TraceScratch,
           if (v < 0 || u + v > 1) continue;
           t = (e2x * qx + e2y * qy + e2z * qz) * inv;
           if (!(t > 0 && t < tmax)) continue;
-          ts.cu = u;
-          ts.cv = v;
+          cu = u;
+          cv = v;
         } else {
-          t = intersectPrim(s, p, ox, oy, oz, dx, dy, dz, time, tmax, ts);
+          const pr = ts.primRay, ph = ts.primHit;
+          pr[0] = ox; pr[1] = oy; pr[2] = oz; pr[3] = dx; pr[4] = dy; pr[5] = dz; pr[6] = time; pr[7] = tmax;
+          if (!intersectPrim(s, p, ts)) continue;
+          t = ph[0]; cu = ph[1]; cv = ph[2];
           if (!(t < tmax)) continue;
         }
         tmax = t;
         best = p;
-        bu = ts.cu;
-        bv = ts.cv;
+        bu = cu;
+        bv = cv;
         if (anyHit) {
           hit.t = t;
           hit.prim = p;
