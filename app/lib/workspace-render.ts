@@ -112,7 +112,8 @@ export class PreviewRenderer {
       runId: f.runId,
       width: f.width || s.width,
       height: f.height || s.height,
-      groupNames: f.groupNames.length ? f.groupNames : s.groupNames,
+      // Same names keep the same array, so the light-balance panel does not re-render on every frame.
+      groupNames: f.groupNames.length && JSON.stringify(f.groupNames) !== JSON.stringify(s.groupNames) ? f.groupNames : s.groupNames,
       sppDone: f.sppDone,
       sppTarget: f.sppTarget || s.sppTarget,
       samplesPerSecond: f.samplesPerSecond,
