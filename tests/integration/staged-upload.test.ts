@@ -5,6 +5,7 @@
 // Run: bin/with-test-env npx vitest run tests/integration/staged-upload.test.ts
 import { createHash, randomUUID } from "node:crypto";
 import { readFileSync } from "node:fs";
+import { request as httpRequest } from "node:http";
 import { setFlagsFromString } from "node:v8";
 import { runInNewContext } from "node:vm";
 import { and, eq } from "drizzle-orm";
@@ -30,6 +31,7 @@ import { kettleScene } from "../support/a3-fixtures";
 import { startApp, type AppServer } from "../support/app-server";
 import { Person, uniqueEmail } from "../support/person";
 
+const SERVED = /^https?:\/\//.test(process.env.TRACEWELL_URL ?? "");
 let app: AppServer;
 beforeAll(async () => {
   await ensureBucket();
@@ -60,12 +62,19 @@ async function call(person: Person, path: string, init: { method?: string; json?
   const headers: Record<string, string> = { "x-forwarded-for": person.address, ...init.headers };
   if (person.cookie) headers.cookie = person.cookie;
   if (init.json !== undefined) headers["content-type"] = "application/json";
-  const res = await app.fetch(path, {
-    method: init.method ?? "POST",
-    headers,
-    body: init.json !== undefined ? JSON.stringify(init.json) : init.body,
-    ...(init.body instanceof ReadableStream ? { duplex: "half" } : {}),
-  } as RequestInit);
+  let res: Response;
+  try {
+    res = await app.fetch(path, {
+      method: init.method ?? "POST",
+      headers,
+      body: init.json !== undefined ? JSON.stringify(init.json) : init.body,
+      ...(init.body instanceof ReadableStream ? { duplex: "half" } : {}),
+    } as RequestInit);
+  } catch (e) {
+    // Over real HTTP a server that refuses a body mid-way may close the connection before the client reads
+    // the answer, and a body that errors aborts the request on the client's side: status 0.
+    return { status: 0, json: { ok: false, error: `no answer: ${e instanceof Error ? e.message : String(e)}` } };
+  }
   const text = await res.text();
   let json: Json = {};
   try {
@@ -134,6 +143,16 @@ async function rendersOfScene(sceneId: string): Promise<number> {
 async function uploadRow(id: string) {
   const [row] = await db().select().from(uploads).where(eq(uploads.id, id));
   return row!;
+}
+
+/** The upload's row once the server has dealt with a request the client gave up on (over HTTP that is later). */
+async function settledRow(id: string) {
+  let row = await uploadRow(id);
+  for (let i = 0; i < 120 && row.status === "pending"; i++) {
+    await new Promise((r) => setTimeout(r, 250));
+    row = await uploadRow(id);
+  }
+  return row;
 }
 
 /** A body that hands out `total` bytes in `chunk`-sized pieces as they are read (never all in memory). */
@@ -240,9 +259,10 @@ describe("staged render publishing", () => {
       method: "PUT",
       body: generated(64 * 1024 * 1024, { chunk: 1024, onPull: (n) => (pulledBeyond = n) }),
     });
-    expect(long.status).toBe(413);
-    expect(long.json.error).toMatch(new RegExp(`^beauty\\.pfm: more than the declared ${pfm.length} bytes arrived`));
-    expect(pulledBeyond).toBeLessThan(1024 * 1024);
+    expect([413, 0]).toContain(long.status);
+    if (long.status === 413) expect(long.json.error).toMatch(new RegExp(`^beauty\\.pfm: more than the declared ${pfm.length} bytes arrived`));
+    expect(pulledBeyond).toBeLessThan(16 * 1024 * 1024); // cut off, not read to its 64 MiB end
+    expect((await settledRow(up3.id)).status).toBe("failed");
     expect(await listKeys(`staging/${up3.id}/`)).toEqual([]);
     expect(await rendersOfScene(s.sceneId)).toBe(0);
   });
@@ -257,8 +277,8 @@ describe("staged render publishing", () => {
       method: "PUT",
       body: generated(state.length, { chunk: 1000, failAfter: 3000, fill: (p, at) => p.set(state.subarray(at, at + p.length)) }),
     });
-    expect(dropped.status).toBeGreaterThanOrEqual(400);
-    expect((await uploadRow(up.id)).status).toBe("failed");
+    expect(dropped.status === 0 || dropped.status >= 400, String(dropped.status)).toBe(true);
+    expect((await settledRow(up.id)).status).toBe("failed");
     expect(await listKeys(`staging/${up.id}/`)).toEqual([]);
 
     const up2 = (await start(s.owner.person, s.projectId, s.description)).upload!;
@@ -359,7 +379,8 @@ describe("staged render publishing", () => {
     await call(s.owner.person, up.cancelUrl);
   });
 
-  it("streams a 64 MiB file through the route without holding it: live memory grows far less than the file", async () => {
+  // In-process only: the probe measures this process, which is the server only when no TRACEWELL_URL is set.
+  it.skipIf(SERVED)("streams a 64 MiB file through the route without holding it: live memory grows far less than the file", async () => {
     const owner = await account("stage-big");
     const projectId = await newProject(owner, "Big render");
     const w = 2048, h = 2731; // a 64 MiB PFM
@@ -401,8 +422,8 @@ describe("staged render publishing", () => {
       return m.heapUsed + m.arrayBuffers;
     };
     gc();
-    const baseline = live();
-    let peak = baseline;
+    const before = live();
+    let peak = before;
     let pulls = 0;
     // Collect garbage every 1 MiB so what is measured is what the server keeps, not what it has let go.
     const onPull = (sent: number) => {
@@ -418,7 +439,10 @@ describe("staged render publishing", () => {
       headers: { "content-length": String(pfmBytes) },
     });
     expect(put.status, put.json.error).toBe(200);
-    const growth = peak - baseline;
+    // The floor is the lower of before and after: something of the test's own let go during the upload must
+    // not hide what the upload kept.
+    gc();
+    const growth = peak - Math.min(before, live());
 
     for (const [slot, body] of [["png", png], ["thumb", thumb]] as const) {
       expect((await call(owner.person, up.files.find((f) => f.slot === slot)!.url, { method: "PUT", body: body as BodyInit })).status).toBe(200);
@@ -433,20 +457,56 @@ describe("staged render publishing", () => {
     // The control: the same probe while this process does hold the whole file (reading it back in one piece).
     gc();
     const controlBase = live();
-    const held = await readRenderFile(row!.files, "pfm");
+    let held = await readRenderFile(row!.files, "pfm");
     gc();
-    const heldGrowth = live() - controlBase;
+    const withHeld = live();
     expect(held!.length).toBe(pfmBytes);
+    held = null;
+    gc();
+    const heldGrowth = withHeld - Math.min(controlBase, live());
     const mib = (n: number) => `${(n / 2 ** 20).toFixed(1)} MiB`;
     console.log(
       `64 MiB upload — file ${mib(pfmBytes)}; live memory growth while streaming it through the route: ${mib(growth)} (${((growth / pfmBytes) * 100).toFixed(0)}% of the file); ` +
         `the same probe while holding the file: ${mib(heldGrowth)} (${((heldGrowth / pfmBytes) * 100).toFixed(0)}%)`,
     );
     // The probe sees a held file; streaming stays well under it (a few 5 MiB parts in flight).
-    expect(heldGrowth).toBeGreaterThan(pfmBytes * 0.9);
+    expect(heldGrowth).toBeGreaterThan(pfmBytes * 0.8);
     expect(growth).toBeLessThan(pfmBytes / 2);
     await deleteRender(renderId); // 64 MiB is not worth keeping in the shared bucket
   }, 300_000);
+});
+
+describe("over real HTTP (run with TRACEWELL_URL=… against a served build)", () => {
+  // A socket that closes mid-file is something only a real server sees; in-process the body can only error.
+  it.skipIf(!SERVED)("a connection dropped mid-file fails the upload promptly and stages nothing", async () => {
+    const s = await setup();
+    const w = 1024, h = 1024;
+    const created = await createScene({ projectId: s.projectId, name: "Drop", scene: { ...kettleScene(), image: { width: w, height: h } }, authorId: s.owner.id });
+    if (!created.ok) throw new Error("scene");
+    const pfmBytes = 16 + w * h * 12;
+    const meta = { ...s.meta, versionId: created.version.id, width: w, height: h, groups: [] };
+    const up = (await start(s.owner.person, s.projectId, { kind: "render", sceneId: created.scene.id, meta, files: [{ slot: "pfm", bytes: pfmBytes }, { slot: "png", bytes: 1000 }, { slot: "thumb", bytes: 100 }] })).upload!;
+    await new Promise<void>((resolve) => {
+      const req = httpRequest(`${process.env.TRACEWELL_URL}${up.files[0]!.url}`, { method: "PUT", headers: { cookie: s.owner.person.cookie, "content-length": String(pfmBytes) } });
+      req.on("error", () => resolve());
+      const chunk = Buffer.alloc(256 * 1024, 1);
+      let sent = 0;
+      const pump = () => {
+        while (sent < 7 * 1024 * 1024) {
+          sent += chunk.length;
+          if (!req.write(chunk)) return void req.once("drain", pump);
+        }
+        req.destroy(); // more than one 5 MiB part has gone to the store by now
+        resolve();
+      };
+      pump();
+    });
+    const row = await settledRow(up.id);
+    expect(row.status).toBe("failed");
+    expect(row.error).toMatch(/^beauty\.pfm: the upload stopped/);
+    expect(await listKeys(`staging/${up.id}/`)).toEqual([]);
+    expect(await rendersOfScene(created.scene.id)).toBe(0);
+  }, 120_000);
 });
 
 describe("staged asset uploads", () => {
