@@ -501,7 +501,9 @@ async function finishAsset(row: UploadRow, plan: AssetPlan): Promise<FinishedUpl
       return { ok: true as const, kind: "asset" as const, asset: existing!, created: false };
     });
   } catch (e) {
-    await Promise.all(created.map((k) => deleteObject(k).catch(() => undefined)));
+    // The blob is shared by content: keep it if another project's (or a concurrent upload's) row now uses it.
+    const [{ n }] = (await db().select({ n: sql<number>`count(*)::int` }).from(assets).where(eq(assets.sha256, sha256))) as [{ n: number }];
+    if (Number(n) === 0) await Promise.all(created.map((k) => deleteObject(k).catch(() => undefined)));
     throw e;
   }
 }

@@ -531,6 +531,21 @@ describe("staged asset uploads", () => {
     expect((again.json.stored as { sha256: string }).sha256).toBe(sha(unique));
   });
 
+  it("ten people finishing the same new mesh at once: one asset row, one blob, one of them told it was created", async () => {
+    const owner = await account("stage-race");
+    const projectId = await newProject(owner, "Assets race");
+    const obj = new TextEncoder().encode(`# ${randomUUID()}\nv 0 0 0\nv 1 0 0\nv 0 1 0\nf 1 2 3\n`);
+    const ups = await Promise.all(Array.from({ length: 10 }, () => start(owner.person, projectId, { kind: "asset", name: "tri.obj", bytes: obj.length, sha256: sha(obj) })));
+    for (const u of ups) expect(u.status, u.json.error).toBe(201);
+    await Promise.all(ups.map((u) => call(owner.person, u.upload!.files[0]!.url, { method: "PUT", body: obj as BodyInit })));
+    const done = await Promise.all(ups.map((u) => call(owner.person, u.upload!.finishUrl)));
+    for (const d of done) expect(d.status, d.json.error).toBe(200);
+    expect(done.filter((d) => d.json.created === true).length).toBe(1);
+    expect((await db().select().from(assets).where(eq(assets.projectId, projectId))).length).toBe(1);
+    expect(await objectSize(assetKey(sha(obj)))).toBe(obj.length);
+    for (const u of ups) expect(await listKeys(`staging/${u.upload!.id}/`)).toEqual([]);
+  });
+
   it("a broken mesh is refused at finish naming its line: no asset row, no stored blob, nothing staged", async () => {
     const owner = await account("stage-broken");
     const projectId = await newProject(owner, "Assets broken");
