@@ -75,7 +75,7 @@ type PlannedFile = { slot: string; name: string; bytes: number; sha256: string |
 type RenderPlan = { kind: "render"; sceneId: string; meta: PublishMetadata; files: PlannedFile[] };
 type AssetPlan = { kind: "asset"; name: string; files: PlannedFile[] };
 type Plan = RenderPlan | AssetPlan;
-type Received = { bytes: number; sha256: string };
+type Received = { bytes: number; sha256: string } | { arriving: true };
 
 export type UploadFailure = { ok: false; status: 400 | 404 | 409 | 413 | 502; error: string; field?: string };
 
@@ -329,13 +329,20 @@ export async function receiveUploadFile(
   const plan = planOf(row);
   const file = plan.files.find((f) => f.slot === slot);
   if (!file) return fail(404, `this upload has no file "${slot}"`);
-  if (receivedOf(row)[slot]) return fail(409, `${file.name}: already received`);
+  if (receivedOf(row)[slot]) return fail(409, `${file.name}: already on its way or received`);
   if (declaredLength !== null && declaredLength !== file.bytes) {
     // Refused before reading: the request says it carries a different file than the one declared.
     await failUpload(row.id, `${file.name}: the request carries ${declaredLength} bytes, the upload declared ${file.bytes}`);
     return fail(declaredLength > file.bytes ? 413 : 400, `${file.name}: the request carries ${declaredLength} bytes, the upload declared ${file.bytes}; nothing was published`);
   }
   if (!body) return fail(400, `${file.name}: the request has no body`);
+  // Claim the slot, so two requests for one file can never both write its staged object.
+  const claimed = await db()
+    .update(uploads)
+    .set({ received: sql`${uploads.received} || ${JSON.stringify({ [slot]: { arriving: true } })}::jsonb` })
+    .where(and(eq(uploads.id, row.id), eq(uploads.status, "pending"), sql`not (${uploads.received} ? ${slot})`))
+    .returning({ id: uploads.id });
+  if (claimed.length === 0) return fail(409, `${file.name}: already on its way or received, or the upload is closed`);
 
   const meter = new ByteMeter(file.bytes, file.name);
   const source = Readable.fromWeb(body as import("node:stream/web").ReadableStream<Uint8Array>);
@@ -360,7 +367,7 @@ export async function receiveUploadFile(
     await failUpload(row.id, problem);
     return fail(400, `${problem}; nothing was published`);
   }
-  const entry: Received = { bytes: meter.bytes, sha256: meter.sha256 };
+  const entry = { bytes: meter.bytes, sha256: meter.sha256 };
   const updated = await db()
     .update(uploads)
     .set({ received: sql`${uploads.received} || ${JSON.stringify({ [slot]: entry })}::jsonb` })
@@ -382,7 +389,7 @@ async function verifyStaged(row: UploadRow): Promise<string | null> {
   const received = receivedOf(row);
   for (const f of planOf(row).files) {
     const got = received[f.slot];
-    if (!got) return `${f.name}: never arrived`;
+    if (!got || "arriving" in got) return `${f.name}: never arrived`;
     const size = await objectSize(stagingKey(row.id, f.slot));
     if (size === null) return `${f.name}: the stored copy is missing`;
     if (size !== f.bytes || got.bytes !== f.bytes) return `${f.name}: ${size} bytes stored, ${f.bytes} declared`;

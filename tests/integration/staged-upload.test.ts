@@ -207,6 +207,19 @@ describe("staged render publishing", () => {
     expect(await rendersOfScene(s.sceneId)).toBe(1);
   });
 
+  it("one file cannot be sent twice, not even by two requests at once", async () => {
+    const s = await setup();
+    const up = (await start(s.owner.person, s.projectId, s.description)).upload!;
+    const pfm = s.files.find((f) => f.slot === "pfm")!;
+    const url = up.files.find((f) => f.slot === "pfm")!.url;
+    const both = await Promise.all([0, 1].map(() => call(s.owner.person, url, { method: "PUT", body: pfm.body as BodyInit })));
+    expect(both.map((r) => r.status).sort()).toEqual([200, 409]);
+    expect(both.find((r) => r.status === 409)!.json.error).toMatch(/^beauty\.pfm: already on its way or received/);
+    expect((await call(s.owner.person, url, { method: "PUT", body: pfm.body as BodyInit })).status).toBe(409);
+    expect((await uploadRow(up.id)).status).toBe("pending");
+    await call(s.owner.person, up.cancelUrl);
+  });
+
   it("refuses sizes over the limits before any byte is stored, naming the file", async () => {
     const s = await setup();
     const before = (await db().select().from(uploads).where(eq(uploads.projectId, s.projectId))).length;
