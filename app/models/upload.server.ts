@@ -429,7 +429,7 @@ export async function finishUpload(row: UploadRow): Promise<FinishedUpload | Upl
   const plan = planOf(row);
   try {
     const result = plan.kind === "render" ? await finishRender(row, plan) : await finishAsset(row, plan);
-    await deleteStaged(row.id);
+    await deleteStaged(row.id); // published: the staged copies are only clutter now
     return result;
   } catch (e) {
     const message = e instanceof UploadRefused ? e.message : `the files could not be published (${e instanceof Error ? e.message : String(e)})`;
@@ -518,10 +518,14 @@ async function finishAsset(row: UploadRow, plan: AssetPlan): Promise<FinishedUpl
 // ---------------------------------------------------------------------------------------------
 // giving up
 
-async function deleteStaged(uploadId: string): Promise<number> {
-  const keys = await listKeys(`${STAGING_PREFIX}${uploadId}/`);
-  await Promise.all(keys.map((k) => deleteObject(k).catch((e: unknown) => console.error(`could not delete staged ${k}:`, e))));
-  return keys.length;
+/** Best effort: whatever stays (the store unreachable just now) is deleted by a later sweep, as the upload is no longer pending. */
+async function deleteStaged(uploadId: string): Promise<void> {
+  try {
+    const keys = await listKeys(`${STAGING_PREFIX}${uploadId}/`);
+    await Promise.all(keys.map((k) => deleteObject(k).catch((e: unknown) => console.error(`could not delete staged ${k}:`, e))));
+  } catch (e) {
+    console.error(`could not list the staged files of upload ${uploadId} (a later sweep deletes them):`, e instanceof Error ? e.message : e);
+  }
 }
 
 /** Marks a pending upload failed (first reason wins) and deletes everything it staged. */

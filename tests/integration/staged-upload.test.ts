@@ -23,7 +23,7 @@ import { renderOutputs } from "~/lib/render-outputs";
 import { assetKey } from "~/models/asset.server";
 import { deleteRender } from "~/models/render.server";
 import { createScene } from "~/models/scene.server";
-import { getUploadFor, receiveUploadFile, startUpload, sweepStaleUploads } from "~/models/upload.server";
+import { cancelUpload, getUploadFor, receiveUploadFile, startUpload, sweepStaleUploads } from "~/models/upload.server";
 import { db, dbPool } from "~/services/db.server";
 import { readRenderFile } from "~/services/render-files.server";
 import { ensureBucket, listKeys, objectExists, objectSize, s3 } from "~/services/storage.server";
@@ -363,6 +363,29 @@ describe("staged render publishing", () => {
     expect((await uploadRow(fresh.id)).status).toBe("pending");
     expect(await listKeys(`staging/${fresh.id}/`)).toEqual([`staging/${fresh.id}/pfm`]);
     await call(s.owner.person, fresh.cancelUrl);
+  });
+
+  it("staged files the store would not let go of at cancel are deleted by the next sweep", async () => {
+    const s = await setup();
+    const up = (await start(s.owner.person, s.projectId, s.description)).upload!;
+    const pfm = s.files.find((f) => f.slot === "pfm")!;
+    expect((await call(s.owner.person, up.files.find((f) => f.slot === "pfm")!.url, { method: "PUT", body: pfm.body as BodyInit })).status).toBe(200);
+    const name = `refuse-list-${randomUUID()}`;
+    s3().middlewareStack.add(
+      (next, context) => async (args) => {
+        if (context.commandName === "ListObjectsV2Command") throw new Error("the store is unreachable (test)");
+        return next(args);
+      },
+      { step: "initialize", name },
+    );
+    try {
+      expect(await cancelUpload((await getUploadFor(s.projectId, up.id, s.owner.id))!)).toEqual({ ok: true, status: "failed" });
+    } finally {
+      s3().middlewareStack.remove(name);
+    }
+    expect(await listKeys(`staging/${up.id}/`)).toEqual([`staging/${up.id}/pfm`]);
+    await sweepStaleUploads();
+    expect(await listKeys(`staging/${up.id}/`)).toEqual([]);
   });
 
   it("viewers cannot start, other people cannot touch someone's upload, and other projects' ids are 404", async () => {
