@@ -4,10 +4,6 @@ import { cancelUpload } from "~/models/upload.server";
 import { requireUpload, uploadJson } from "~/services/upload-access.server";
 import type { Route } from "./+types/projects.$projectId.uploads.$uploadId.cancel";
 
-export async function loader() {
-  return uploadJson(405, { ok: false, error: "POST here to cancel the upload" });
-}
-
 export async function action({ request, params }: Route.ActionArgs) {
   if (request.method !== "POST") return uploadJson(405, { ok: false, error: "only POST" });
   const { row } = await requireUpload(request, params.projectId, params.uploadId);

@@ -6,10 +6,6 @@ import { receiveUploadFile } from "~/models/upload.server";
 import { requireUpload, uploadJson } from "~/services/upload-access.server";
 import type { Route } from "./+types/projects.$projectId.uploads.$uploadId.files.$slot";
 
-export async function loader() {
-  return uploadJson(405, { ok: false, error: "PUT the file's bytes here" });
-}
-
 export async function action({ request, params }: Route.ActionArgs) {
   if (request.method !== "PUT") return uploadJson(405, { ok: false, error: "only PUT" });
   const { row } = await requireUpload(request, params.projectId, params.uploadId);

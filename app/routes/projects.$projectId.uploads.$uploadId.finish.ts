@@ -7,10 +7,6 @@ import { finishUpload } from "~/models/upload.server";
 import { requireUpload, uploadJson } from "~/services/upload-access.server";
 import type { Route } from "./+types/projects.$projectId.uploads.$uploadId.finish";
 
-export async function loader() {
-  return uploadJson(405, { ok: false, error: "POST here to finish the upload" });
-}
-
 export async function action({ request, params }: Route.ActionArgs) {
   if (request.method !== "POST") return uploadJson(405, { ok: false, error: "only POST" });
   const { row, userId, projectId } = await requireUpload(request, params.projectId, params.uploadId);
