@@ -187,3 +187,37 @@ export function prettyJson(v: unknown, pad = ""): string {
   }
   return JSON.stringify(v);
 }
+
+/**
+ * `next` with every part that equals the same part of `prev` replaced by `prev`'s own object, so a reader
+ * holding a slice (one light, the camera) sees the same reference when that slice did not change. Objects
+ * count as equal only with the same keys in the same order (the forms list materials in text order).
+ */
+export function keepUnchanged(prev: unknown, next: unknown): unknown {
+  if (prev === next || prev === null || next === null || typeof prev !== "object" || typeof next !== "object") return next;
+  if (Array.isArray(prev) !== Array.isArray(next)) return next;
+  if (Array.isArray(next)) {
+    const before = prev as unknown[];
+    let same = before.length === next.length;
+    for (let i = 0; i < next.length; i++) {
+      const kept = keepUnchanged(before[i], next[i]);
+      if (kept !== before[i]) same = false;
+      next[i] = kept;
+    }
+    return same ? prev : next;
+  }
+  const before = prev as Record<string, unknown>;
+  const after = next as Record<string, unknown>;
+  const keysBefore = Object.keys(before);
+  const keysAfter = Object.keys(after);
+  let same = keysBefore.length === keysAfter.length;
+  for (let i = 0; i < keysAfter.length; i++) {
+    const k = keysAfter[i]!;
+    if (same && keysBefore[i] !== k) same = false;
+    const kept = Object.hasOwn(before, k) ? keepUnchanged(before[k], after[k]) : after[k];
+    if (kept !== before[k]) same = false;
+    // A "__proto__" member is an own property after JSON.parse; assigning it would set the prototype instead.
+    if (kept !== after[k] && k !== "__proto__") after[k] = kept;
+  }
+  return same ? prev : next;
+}

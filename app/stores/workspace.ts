@@ -8,13 +8,12 @@
  * newest text (if it changed meanwhile) is checked next, so a burst of keystrokes costs two checks, not one
  * each. An answer counts only if it is for the current revision; older answers are dropped.
  */
-import { parse as parseJson, type ParseError } from "jsonc-parser";
 import { createStore, type StoreApi } from "zustand/vanilla";
 import type { Scene } from "@tracer/scene/schema";
 import type { SceneIssue, SceneResult } from "@tracer/scene/validate";
 import { writeBackBalance } from "~/lib/workspace-balance";
 import { NEUTRAL_BALANCE, type GroupBalance, type ViewMode } from "~/lib/workspace-image";
-import { prettyJson, setManyAtPaths, type PathSegment } from "~/lib/workspace-json";
+import { keepUnchanged, prettyJson, setManyAtPaths, type PathSegment } from "~/lib/workspace-json";
 
 export type EditSource = "editor" | "form" | "balance" | "history" | "load" | "conflict";
 
@@ -90,11 +89,18 @@ export type WorkspaceDeps = {
 
 export type WorkspaceStore = StoreApi<WorkspaceState>;
 
-/** The forms read plain parsed JSON; parsing is cheap and stays here so they follow every keystroke. */
-function parseForForms(text: string): unknown {
-  const errors: ParseError[] = [];
-  const parsed: unknown = parseJson(text, errors, { disallowComments: true, allowTrailingComma: false });
-  return errors.length ? null : parsed;
+/**
+ * The forms read plain parsed JSON and follow every keystroke. Parts equal to the previous parse keep their
+ * identity, so a form section reading its own slice re-renders only when that slice changed.
+ */
+function parseForForms(text: string, prev: unknown): unknown {
+  let parsed: unknown;
+  try {
+    parsed = JSON.parse(text);
+  } catch {
+    return null;
+  }
+  return keepUnchanged(prev, parsed);
 }
 
 /** One empty list for every clean check, so readers of `issues` see no change when nothing changed. */
@@ -114,6 +120,13 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
 
   const store = createStore<WorkspaceState>()((set, get) => {
     let inFlight = false;
+    // The latest successful parse: after a syntax error is fixed, unchanged sections still keep their identity.
+    let lastParsed: unknown = null;
+    const parse = (text: string) => {
+      const p = parseForForms(text, lastParsed);
+      if (p !== null) lastParsed = p;
+      return p;
+    };
 
     /** Take a check's answer if it is still about the current text. */
     const receive = (revision: number, text: string, result: SceneResult) => {
@@ -166,7 +179,7 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
       } else {
         lastEdit = null;
       }
-      set({ text, revision: s.revision + 1, lastSource: source, past, future, parsed: parseForForms(text) });
+      set({ text, revision: s.revision + 1, lastSource: source, past, future, parsed: parse(text) });
       requestCheck();
     };
 
@@ -197,7 +210,7 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
       lastSource: "load",
       past: [],
       future: [],
-      parsed: parseForForms(startText),
+      parsed: parse(startText),
       issues: known && !known.ok ? known.issues : NO_ISSUES,
       checkedRevision: known ? 0 : -1,
       lastGood: known?.ok ? { scene: known.scene, text: startText } : null,

@@ -1,7 +1,13 @@
 /**
  * Forms for the everyday edits: camera, each light, each material, render and display settings. They edit
  * the same JSON text as the editor (see fields.tsx), so either view can be used at any moment.
+ *
+ * Each section is memoised and reads only its own slice of the parsed scene (the store keeps unchanged
+ * slices' identity from one parse to the next), so a keystroke re-renders the section it changed, not the
+ * whole tree. The outer list re-renders only when the lights, material ids or group names change.
  */
+import { createContext, memo, Profiler, useContext, type ProfilerOnRenderCallback } from "react";
+import { useShallow } from "zustand/react/shallow";
 import { Notice } from "~/components/ui";
 import { getIn, type PathSegment } from "~/lib/workspace-json";
 import {
@@ -14,6 +20,7 @@ import {
   shapeSize,
   type V3,
 } from "~/lib/workspace-lights";
+import type { WorkspaceState } from "~/stores/workspace";
 import { useWorkspace, useWorkspaceStore } from "./context";
 import { CheckField, NumberField, SelectField, TextField, TripleField, useIssueAt, useSceneValue } from "./fields";
 
@@ -33,64 +40,112 @@ function Row({ children }: { children: React.ReactNode }) {
   return <div className="grid grid-cols-2 gap-2">{children}</div>;
 }
 
-export function SceneForms() {
-  const parsed = useWorkspace((s) => s.parsed);
+const NO_NAMES: string[] = [];
+
+const isObject = (v: unknown): v is Record<string, unknown> => v !== null && typeof v === "object" && !Array.isArray(v);
+
+const lightCountOf = (s: WorkspaceState) => {
+  const l = getIn(s.parsed, ["lights"]);
+  return Array.isArray(l) ? l.length : 0;
+};
+
+const materialIdsOf = (s: WorkspaceState) => {
+  const m = getIn(s.parsed, ["materials"]);
+  return isObject(m) ? Object.keys(m) : NO_NAMES;
+};
+
+const groupNamesOf = (s: WorkspaceState) => {
+  const lights = getIn(s.parsed, ["lights"]);
+  if (!Array.isArray(lights)) return NO_NAMES;
+  return [...new Set(lights.map((l) => (isObject(l) ? l.group : undefined)).filter((g): g is string => typeof g === "string"))];
+};
+
+/** Set when a caller asks to see which sections re-render (measuring); each section then reports through a Profiler. */
+const SectionRenderContext = createContext<ProfilerOnRenderCallback | undefined>(undefined);
+
+/** Sits inside each memoised section, so it reports only when that section itself renders. */
+function Measured({ id, children }: { id: string; children: React.ReactNode }) {
+  const onRender = useContext(SectionRenderContext);
+  return onRender ? (
+    <Profiler id={id} onRender={onRender}>
+      {children}
+    </Profiler>
+  ) : (
+    <>{children}</>
+  );
+}
+
+export function SceneForms({ onSectionRender }: { onSectionRender?: ProfilerOnRenderCallback } = {}) {
+  const isScene = useWorkspace((s) => isObject(s.parsed));
   const issueCount = useWorkspace((s) => s.issues.length);
-  if (parsed === null || typeof parsed !== "object") {
+  const lightCount = useWorkspace(lightCountOf);
+  const materials = useWorkspace(useShallow(materialIdsOf));
+  const groups = useWorkspace(useShallow(groupNamesOf));
+  if (!isScene) {
     return (
       <div className="p-3">
         <Notice tone="warn">The JSON has a syntax error, so the forms are paused. Fix it in the editor (the error is marked there).</Notice>
       </div>
     );
   }
-  const p = parsed as Record<string, unknown>;
-  const lights = Array.isArray(p.lights) ? p.lights : [];
-  const materials = p.materials && typeof p.materials === "object" ? Object.keys(p.materials as object) : [];
   return (
-    <div className="flex flex-col gap-2 p-2" data-testid="scene-forms">
-      {issueCount > 0 ? <Notice tone="warn">{issueCount === 1 ? "One problem" : `${issueCount} problems`} in the scene: the preview shows the last valid version.</Notice> : null}
-      <CameraForm />
-      <Section title={`Lights (${lights.length})`} open testId="lights-forms">
-        {lights.length === 0 ? <p className="text-xs text-ink-faint">No lights: the environment lights the scene.</p> : null}
-        {lights.map((l, i) => (
-          <LightForm key={i} index={i} light={l} />
-        ))}
-        <datalist id="light-groups">
-          {[...new Set(lights.map((l) => (l && typeof l === "object" ? (l as Record<string, unknown>).group : undefined)).filter((g): g is string => typeof g === "string"))].map((g) => (
-            <option key={g} value={g} />
+    <SectionRenderContext.Provider value={onSectionRender}>
+      <div className="flex flex-col gap-2 p-2" data-testid="scene-forms">
+        {issueCount > 0 ? <Notice tone="warn">{issueCount === 1 ? "One problem" : `${issueCount} problems`} in the scene: the preview shows the last valid version.</Notice> : null}
+        <CameraForm />
+        <Section title={`Lights (${lightCount})`} open testId="lights-forms">
+          {lightCount === 0 ? <p className="text-xs text-ink-faint">No lights: the environment lights the scene.</p> : null}
+          {Array.from({ length: lightCount }, (_, i) => (
+            <LightForm key={i} index={i} />
           ))}
-        </datalist>
-      </Section>
-      <Section title={`Materials (${materials.length})`}>
-        {materials.map((id) => (
-          <MaterialForm key={id} id={id} />
-        ))}
-      </Section>
-      <RenderForm />
-      <DisplayForm />
-    </div>
+          <datalist id="light-groups">
+            {groups.map((g) => (
+              <option key={g} value={g} />
+            ))}
+          </datalist>
+        </Section>
+        <Section title={`Materials (${materials.length})`}>
+          {materials.map((id) => (
+            <MaterialForm key={id} id={id} />
+          ))}
+        </Section>
+        <RenderForm />
+        <DisplayForm />
+      </div>
+    </SectionRenderContext.Provider>
   );
 }
 
-function CameraForm() {
+const CameraForm = memo(function CameraForm() {
   const c = "camera";
   return (
-    <Section title="Camera" testId="camera-form">
-      <TripleField path={["camera", "position"]} label="Position" unit="m" context={c} kind="vector" />
-      <TripleField path={["camera", "target"]} label="Looks at" unit="m" context={c} kind="vector" />
-      <Row>
-        <NumberField path={["camera", "fovY"]} label="Vertical view" unit="°" context={c} min={1} max={179} />
-        <NumberField path={["camera", "aperture"]} label="Lens radius" unit="m" context={c} min={0} hint="0 = pinhole" />
-      </Row>
-      <NumberField path={["camera", "focusDistance"]} label="Focus distance" unit="m" context={c} hint="Empty: distance to the point looked at" />
-    </Section>
+    <Measured id="camera">
+      <Section title="Camera" testId="camera-form">
+        <TripleField path={["camera", "position"]} label="Position" unit="m" context={c} kind="vector" />
+        <TripleField path={["camera", "target"]} label="Looks at" unit="m" context={c} kind="vector" />
+        <Row>
+          <NumberField path={["camera", "fovY"]} label="Vertical view" unit="°" context={c} min={1} max={179} />
+          <NumberField path={["camera", "aperture"]} label="Lens radius" unit="m" context={c} min={0} hint="0 = pinhole" />
+        </Row>
+        <NumberField path={["camera", "focusDistance"]} label="Focus distance" unit="m" context={c} hint="Empty: distance to the point looked at" />
+      </Section>
+    </Measured>
   );
-}
+});
 
-function LightForm({ index, light }: { index: number; light: unknown }) {
+const LightForm = memo(function LightForm({ index }: { index: number }) {
+  const light = useWorkspace((s) => getIn(s.parsed, ["lights", index]));
+  return (
+    <Measured id={`light-${index}`}>
+      <LightFields index={index} light={light} />
+    </Measured>
+  );
+});
+
+function LightFields({ index, light }: { index: number; light: unknown }) {
   const store = useWorkspaceStore();
   const base: PathSegment[] = ["lights", index];
-  const l = (light && typeof light === "object" ? light : {}) as Record<string, unknown>;
+  const l = isObject(light) ? light : {};
   const id = typeof l.id === "string" ? l.id : `#${index + 1}`;
   const ctx = `Light ${id}`;
   const issue = useIssueAt(base, false);
@@ -197,87 +252,93 @@ function LightForm({ index, light }: { index: number; light: unknown }) {
   );
 }
 
-function MaterialForm({ id }: { id: string }) {
+const MaterialForm = memo(function MaterialForm({ id }: { id: string }) {
   const store = useWorkspaceStore();
   const base: PathSegment[] = ["materials", id];
   const m = useSceneValue(base);
   const type = m && typeof m === "object" ? ((m as Record<string, unknown>).type as "diffuse" | "metal" | "glass" | undefined) : undefined;
   const ctx = `Material ${id}`;
   return (
-    <fieldset className="flex flex-col gap-2 rounded border border-line/70 p-2" data-testid={`material-${id}`}>
-      <legend className="px-1 text-xs font-medium text-ink">{id}</legend>
-      <SelectField
-        label="Kind"
-        context={ctx}
-        value={type}
-        options={[
-          { value: "diffuse", label: "Matte (diffuse)" },
-          { value: "metal", label: "Metal" },
-          { value: "glass", label: "Glass" },
-        ]}
-        onChange={(t) => store.getState().editPaths([{ path: base, value: defaultMaterial(t) }], { label: `${ctx}: kind ${t}` })}
-      />
-      {type === "diffuse" ? <TripleField path={[...base, "albedo"]} label="Albedo" context={ctx} kind="colour" /> : null}
-      {type === "metal" ? (
-        <>
-          <TripleField path={[...base, "reflectance"]} label="Reflectance" context={ctx} kind="colour" />
-          <NumberField path={[...base, "roughness"]} label="Roughness" context={ctx} min={0} max={1} hint="0 = mirror" />
-        </>
-      ) : null}
-      {type === "glass" ? (
-        <>
-          <Row>
-            <NumberField path={[...base, "ior"]} label="Index of refraction" context={ctx} min={1} max={4} />
-            <NumberField path={[...base, "roughness"]} label="Roughness" context={ctx} min={0} max={1} />
-          </Row>
-          <TripleField path={[...base, "absorption"]} label="Absorption" unit="per m" context={ctx} kind="colour" />
-        </>
-      ) : null}
-    </fieldset>
+    <Measured id={`material-${id}`}>
+      <fieldset className="flex flex-col gap-2 rounded border border-line/70 p-2" data-testid={`material-${id}`}>
+        <legend className="px-1 text-xs font-medium text-ink">{id}</legend>
+        <SelectField
+          label="Kind"
+          context={ctx}
+          value={type}
+          options={[
+            { value: "diffuse", label: "Matte (diffuse)" },
+            { value: "metal", label: "Metal" },
+            { value: "glass", label: "Glass" },
+          ]}
+          onChange={(t) => store.getState().editPaths([{ path: base, value: defaultMaterial(t) }], { label: `${ctx}: kind ${t}` })}
+        />
+        {type === "diffuse" ? <TripleField path={[...base, "albedo"]} label="Albedo" context={ctx} kind="colour" /> : null}
+        {type === "metal" ? (
+          <>
+            <TripleField path={[...base, "reflectance"]} label="Reflectance" context={ctx} kind="colour" />
+            <NumberField path={[...base, "roughness"]} label="Roughness" context={ctx} min={0} max={1} hint="0 = mirror" />
+          </>
+        ) : null}
+        {type === "glass" ? (
+          <>
+            <Row>
+              <NumberField path={[...base, "ior"]} label="Index of refraction" context={ctx} min={1} max={4} />
+              <NumberField path={[...base, "roughness"]} label="Roughness" context={ctx} min={0} max={1} />
+            </Row>
+            <TripleField path={[...base, "absorption"]} label="Absorption" unit="per m" context={ctx} kind="colour" />
+          </>
+        ) : null}
+      </fieldset>
+    </Measured>
   );
-}
+});
 
-function RenderForm() {
+const RenderForm = memo(function RenderForm() {
   const store = useWorkspaceStore();
   const integrator = useSceneValue(["render", "integrator"]);
   const ctx = "Render";
   return (
-    <Section title="Render" testId="render-form">
-      <Row>
-        <NumberField path={["image", "width"]} label="Width" unit="px" context="Image" min={1} />
-        <NumberField path={["image", "height"]} label="Height" unit="px" context="Image" min={1} />
-      </Row>
-      <Row>
-        <NumberField path={["render", "spp"]} label="Samples per pixel" context={ctx} min={1} />
-        <NumberField path={["render", "maxDepth"]} label="Max bounces" context={ctx} min={1} />
-      </Row>
-      <Row>
-        <SelectField
-          label="Method"
-          context={ctx}
-          path={["render", "integrator"]}
-          value={typeof integrator === "string" ? (integrator as "path" | "whitted" | "direct") : "path"}
-          options={[
-            { value: "path", label: "Path tracing" },
-            { value: "whitted", label: "Mirror and glass only" },
-            { value: "direct", label: "Direct light only" },
-          ]}
-          onChange={(v) => store.getState().editPaths([{ path: ["render", "integrator"], value: v }], { label: `${ctx}: method ${v}` })}
-        />
-        <NumberField path={["render", "seed"]} label="Seed" context={ctx} min={0} />
-      </Row>
-      <NumberField path={["render", "clamp"]} label="Sample clamp" context={ctx} min={0} hint="0 = off; above 0 trims fireflies (biased)" />
-    </Section>
+    <Measured id="render">
+      <Section title="Render" testId="render-form">
+        <Row>
+          <NumberField path={["image", "width"]} label="Width" unit="px" context="Image" min={1} />
+          <NumberField path={["image", "height"]} label="Height" unit="px" context="Image" min={1} />
+        </Row>
+        <Row>
+          <NumberField path={["render", "spp"]} label="Samples per pixel" context={ctx} min={1} />
+          <NumberField path={["render", "maxDepth"]} label="Max bounces" context={ctx} min={1} />
+        </Row>
+        <Row>
+          <SelectField
+            label="Method"
+            context={ctx}
+            path={["render", "integrator"]}
+            value={typeof integrator === "string" ? (integrator as "path" | "whitted" | "direct") : "path"}
+            options={[
+              { value: "path", label: "Path tracing" },
+              { value: "whitted", label: "Mirror and glass only" },
+              { value: "direct", label: "Direct light only" },
+            ]}
+            onChange={(v) => store.getState().editPaths([{ path: ["render", "integrator"], value: v }], { label: `${ctx}: method ${v}` })}
+          />
+          <NumberField path={["render", "seed"]} label="Seed" context={ctx} min={0} />
+        </Row>
+        <NumberField path={["render", "clamp"]} label="Sample clamp" context={ctx} min={0} hint="0 = off; above 0 trims fireflies (biased)" />
+      </Section>
+    </Measured>
   );
-}
+});
 
-export function DisplayForm({ open = false }: { open?: boolean }) {
+export const DisplayForm = memo(function DisplayForm({ open = false }: { open?: boolean }) {
   return (
-    <Section title="Display" open={open} testId="display-form">
-      <DisplayFields />
-    </Section>
+    <Measured id="display">
+      <Section title="Display" open={open} testId="display-form">
+        <DisplayFields />
+      </Section>
+    </Measured>
   );
-}
+});
 
 /** Exposure and tone map live in the scene's display block, so the look travels with the scene. */
 export function DisplayFields() {
