@@ -307,6 +307,9 @@ function headProblem(slot: string, head: Uint8Array, bytes: number, meta: Publis
     const size = pngSize(head);
     if ("error" in size) return `${name}: ${size.error}`;
     if (slot === "png" && (size.width !== w || size.height !== h)) return `${name}: the picture is ${size.width}×${size.height}, meta says ${w}×${h}`;
+  } else if (slot === "hdr") {
+    // Radiance files begin with "#?" and a program name (the format's own signature line).
+    if (ascii(head, 0, 2) !== "#?") return `${name}: byte 0: not a Radiance HDR file (it must begin with "#?")`;
   } else if (slot === "state") {
     const dv = new DataView(head.buffer, head.byteOffset, head.byteLength);
     if (ascii(head, 0, 5) !== "TWACC") return `${name}: byte 0: not a saved accumulation`;

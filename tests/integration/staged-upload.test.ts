@@ -254,6 +254,15 @@ describe("staged render publishing", () => {
     expect((await call(s.owner.person, up.finishUrl)).status).toBe(409);
     expect(await rendersOfScene(s.sceneId)).toBe(0);
 
+    // A file that is not what its slot says, caught by its first bytes (no hash declared for it here).
+    const hdr = s.files.find((f) => f.slot === "hdr")!.body;
+    const noHash = { ...s.description, files: s.description.files.map((f) => (f.slot === "hdr" ? { slot: f.slot, bytes: f.bytes } : f)) };
+    const upH = (await start(s.owner.person, s.projectId, noHash)).upload!;
+    const notHdr = await call(s.owner.person, upH.files.find((f) => f.slot === "hdr")!.url, { method: "PUT", body: new Uint8Array(hdr.length).fill(0x41) as BodyInit });
+    expect(notHdr.status).toBe(400);
+    expect(notHdr.json.error).toMatch(/^beauty\.hdr: byte 0: not a Radiance HDR file/);
+    expect(await listKeys(`staging/${upH.id}/`)).toEqual([]);
+
     // A body that stops short (no length header, so only the count can tell).
     const up2 = (await start(s.owner.person, s.projectId, s.description)).upload!;
     const pfm = s.files.find((f) => f.slot === "pfm")!.body;
