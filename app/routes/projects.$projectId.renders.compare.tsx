@@ -12,10 +12,10 @@ import { Button, buttonClass, Notice, Panel } from "~/components/ui";
 import { compareImages, differenceImage, type MetricMode, type Metrics, type Picture } from "~/lib/image-metrics";
 import { reproduceRender } from "~/lib/reproduce.client";
 import { diffScenes } from "~/lib/scene-diff";
-import { getRender, type RenderListItem } from "~/models/render.server";
-import { getVersion } from "~/models/scene.server";
+import { getRender, listRenders, type RenderListItem } from "~/models/render.server";
+import { getScene, getVersion } from "~/models/scene.server";
 import { readRenderFile } from "~/services/render-files.server";
-import { requireAccess } from "~/services/permissions.server";
+import { authorize, requireAccess, type Actor } from "~/services/permissions.server";
 import { requireInProject } from "~/services/project-access.server";
 import type { Route } from "./+types/projects.$projectId.renders.compare";
 
@@ -41,10 +41,20 @@ function dataUrl(png: Uint8Array): string {
   return `data:image/png;base64,${Buffer.from(png).toString("base64")}`;
 }
 
+/** When A's scene is a fork: the latest renders of its origin scene, if the person may see the origin's project. */
+async function originRenders(actor: Actor, a: RenderListItem): Promise<{ id: string; label: string }[]> {
+  const scene = await getScene(a.sceneId);
+  const origin = scene?.forkedFromVersionId ? await getVersion(scene.forkedFromVersionId) : null;
+  const originScene = origin ? await getScene(origin.sceneId) : null;
+  if (!originScene || !(await authorize(actor, { projectId: originScene.projectId }, "view")).ok) return [];
+  const { rows } = await listRenders(originScene.projectId, { sceneId: originScene.id }, { page: 1, pageSize: 6 });
+  return rows.map((r) => ({ id: r.id, label: `${r.sceneName} v${r.versionNumber}${r.title ? ` · ${r.title}` : ""} · ${r.spp} spp` }));
+}
+
 export async function loader({ request, params }: Route.LoaderArgs) {
   const url = new URL(request.url);
   const ids = [url.searchParams.get("a") ?? "", url.searchParams.get("b") ?? ""];
-  await requireInProject(request, params.projectId, { renderId: ids[0]! }, "view");
+  const access = await requireInProject(request, params.projectId, { renderId: ids[0]! }, "view");
   await requireAccess(request, { renderId: ids[1]! }, "view");
   const [a, b] = (await Promise.all(ids.map((id) => getRender(id)))) as [RenderListItem, RenderListItem];
   const mode: MetricMode = url.searchParams.get("mode") === "display" ? "display" : "linear";
@@ -85,6 +95,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 
   return {
     projectId: params.projectId,
+    originRenders: await originRenders(access.actor, a),
     mode,
     a: present(a, va),
     b: present(b, vb),
@@ -205,6 +216,17 @@ export default function CompareRenders({ loaderData }: Route.ComponentProps) {
           </Panel>
         ))}
       </div>
+
+      {d.originRenders.length ? (
+        <p className="flex flex-wrap items-center gap-2 text-sm text-ink-muted" data-testid="origin-renders">
+          A is a render of a fork. Compare it with a render of the scene it was forked from:
+          {d.originRenders.map((r) => (
+            <Link key={r.id} className="text-accent hover:underline" to={`${base}/compare?a=${d.a.id}&b=${r.id}&mode=${d.mode}`}>
+              {r.label}
+            </Link>
+          ))}
+        </p>
+      ) : null}
 
       <div className="grid gap-3 lg:grid-cols-2">
         <Panel title="Wipe">
