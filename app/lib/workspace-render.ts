@@ -23,6 +23,8 @@ export type PreviewState = {
   picture: Picture | null;
   /** Bumped whenever a new picture arrives (new pixels or a new look). */
   pictureVersion: number;
+  /** Number of the latest look sent to the worker (a picture carrying it shows that look). */
+  lookRequested: number;
   sppDone: number;
   sppTarget: number;
   samplesPerSecond: number;
@@ -43,7 +45,7 @@ export type PreviewState = {
 export type { MeterReading, PublishPackage };
 
 export const initialPreview: PreviewState = {
-  status: "idle", runId: 0, width: 0, height: 0, groupNames: [], picture: null, pictureVersion: 0, sppDone: 0, sppTarget: 0,
+  status: "idle", runId: 0, width: 0, height: 0, groupNames: [], picture: null, pictureVersion: 0, lookRequested: 0, sppDone: 0, sppTarget: 0,
   samplesPerSecond: 0, elapsedMs: 0, relStdError: Infinity, stopReason: null, error: null, workers: 0,
   settledSpp: 0, accumulationHash: null, scale: 1, runKey: "",
 };
@@ -72,6 +74,7 @@ export class PreviewRenderer {
   setLook(look: Look): number {
     const seq = ++this.lookSeq;
     void this.api.setLook(look, seq);
+    this.store.setState({ lookRequested: seq });
     return seq;
   }
 

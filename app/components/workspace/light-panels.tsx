@@ -12,7 +12,6 @@ import {
   LUMINOUS_EFFICACY_LM_PER_W,
   NEUTRAL_BALANCE,
   type Histogram as HistogramData,
-  type Picture,
   type ProbeReading,
   type Rgb,
 } from "~/lib/workspace-image";
@@ -116,7 +115,7 @@ export function LookPanel() {
   const store = useWorkspaceStore();
   const view = useWorkspace((s) => s.view);
   // Counted by the coordinator worker from the same balanced image as the picture, after its exposure.
-  const hist = usePreviewContext().picture?.histogram ?? null;
+  const hist = usePreview((s) => s.picture?.histogram ?? null);
   return (
     <div className="flex flex-col gap-3 p-3" data-testid="look-panel">
       <DisplayFields />
@@ -196,9 +195,11 @@ function Histogram({ hist }: { hist: HistogramData | null }) {
 // measure
 
 export function MeasurePanel() {
-  const { picture, cursor, meterAt, renderer } = usePreviewContext();
+  const { cursor, meterAt, renderer } = usePreviewContext();
   const runId = usePreview((s) => s.runId);
-  const probe = useProbe(renderer, cursor, picture);
+  // A number, not the picture: the probe is asked again for each new picture without holding pixels here.
+  const pictureVersion = usePreview((s) => (s.picture ? s.pictureVersion : 0));
+  const probe = useProbe(renderer, cursor, pictureVersion);
   const [reading, setReading] = useState<{ at: [number, number]; r: MeterReading | null; error?: string } | null>(null);
   const [busy, setBusy] = useState(false);
 
@@ -255,12 +256,12 @@ export function MeasurePanel() {
  * again when the cursor moves or a new picture arrives (new pixels, balance or exposure); a slow answer to
  * an older question is ignored.
  */
-function useProbe(renderer: PreviewRenderer | null, cursor: [number, number] | null, picture: Picture | null): ProbeReading | null {
+function useProbe(renderer: PreviewRenderer | null, cursor: [number, number] | null, pictureVersion: number): ProbeReading | null {
   const [probe, setProbe] = useState<ProbeReading | null>(null);
   const x = cursor?.[0];
   const y = cursor?.[1];
   useEffect(() => {
-    if (!renderer || x === undefined || y === undefined || !picture) {
+    if (!renderer || x === undefined || y === undefined || pictureVersion === 0) {
       setProbe(null);
       return;
     }
@@ -274,7 +275,7 @@ function useProbe(renderer: PreviewRenderer | null, cursor: [number, number] | n
     return () => {
       live = false;
     };
-  }, [renderer, x, y, picture]);
+  }, [renderer, x, y, pictureVersion]);
   return probe;
 }
 

@@ -3,35 +3,32 @@
  * coordinator worker combines the per-group buffers under the current look (light balance, exposure, tone
  * map, false colour) and sends a picture ready to draw, so a slider drag costs the page one putImageData
  * per picture and never a loop over the pixels.
+ *
+ * Pictures never go through React: the canvas subscribes to the renderer's store and draws the newest
+ * picture in the next animation frame (at most one draw per frame however many arrive), so a picture
+ * re-renders nothing. Readers select narrow slices (progress numbers, the histogram, a picture counter).
  */
 import { createContext, useContext, useEffect, useMemo, useRef, useState } from "react";
 import { useStore } from "zustand";
+import { useShallow } from "zustand/react/shallow";
 import { Button, cx } from "~/components/ui";
 import { DEFAULT_LOOK, type Picture } from "~/lib/workspace-image";
-import { etaMs, type PreviewRenderer, type PreviewState } from "~/lib/workspace-render";
+import { etaMs, initialPreview, type PreviewRenderer, type PreviewState } from "~/lib/workspace-render";
 import type { ResolutionScale } from "~/stores/workspace";
 import { useWorkspace, useWorkspaceStore } from "./context";
 
 type PreviewCtx = {
   renderer: PreviewRenderer | null;
-  picture: Picture | null;
-  /** Number of the latest look sent to the worker (a picture carrying it shows that look). */
-  lookSeq: number;
   cursor: [number, number] | null;
   setCursor: (c: [number, number] | null) => void;
   meterAt: [number, number] | null;
   setMeterAt: (c: [number, number] | null) => void;
 };
-const PreviewContext = createContext<PreviewCtx>({ renderer: null, picture: null, lookSeq: 0, cursor: null, setCursor: () => {}, meterAt: null, setMeterAt: () => {} });
+const PreviewContext = createContext<PreviewCtx>({ renderer: null, cursor: null, setCursor: () => {}, meterAt: null, setMeterAt: () => {} });
 /** The renderer alone: it never changes while the page is open, so progress readers do not re-render for each picture. */
 const RendererContext = createContext<PreviewRenderer | null>(null);
 
-const EMPTY_PREVIEW: PreviewState = {
-  status: "idle", runId: 0, width: 0, height: 0, groupNames: [], picture: null, pictureVersion: 0, sppDone: 0, sppTarget: 0,
-  samplesPerSecond: 0, elapsedMs: 0, relStdError: Infinity, stopReason: null, error: null, workers: 0,
-  settledSpp: 0, accumulationHash: null, scale: 1, runKey: "",
-};
-const fallbackStore = { getState: () => EMPTY_PREVIEW, getInitialState: () => EMPTY_PREVIEW, subscribe: () => () => {}, setState: () => {} };
+const fallbackStore = { getState: () => initialPreview, getInitialState: () => initialPreview, subscribe: () => () => {}, setState: () => {} };
 
 export function usePreview<T>(selector: (s: PreviewState) => T): T {
   const renderer = useContext(RendererContext);
@@ -46,20 +43,18 @@ export function usePreviewContext(): PreviewCtx {
   return useContext(PreviewContext);
 }
 
-/** Sends the look (balance, display block, view) to the coordinator worker and shares the picture it answers with. */
+/** Sends the look (balance, display block, view) to the coordinator worker; the pictures it answers with land in the renderer's store. */
 export function PreviewProvider({ renderer, children }: { renderer: PreviewRenderer | null; children: React.ReactNode }) {
-  const picture = useStore(renderer?.store ?? fallbackStore, (s) => s.picture);
   const balances = useWorkspace((s) => s.balances);
   const view = useWorkspace((s) => s.view);
   const exposure = useWorkspace((s) => s.lastGood?.scene.display.exposure ?? DEFAULT_LOOK.display.exposure);
   const toneMap = useWorkspace((s) => s.lastGood?.scene.display.toneMap ?? DEFAULT_LOOK.display.toneMap);
   const [cursor, setCursor] = useState<[number, number] | null>(null);
   const [meterAt, setMeterAt] = useState<[number, number] | null>(null);
-  const [lookSeq, setLookSeq] = useState(0);
   useEffect(() => {
-    if (renderer) setLookSeq(renderer.setLook({ balances, view, display: { exposure, toneMap } }));
+    renderer?.setLook({ balances, view, display: { exposure, toneMap } });
   }, [renderer, balances, view, exposure, toneMap]);
-  const value = useMemo(() => ({ renderer, picture, lookSeq, cursor, setCursor, meterAt, setMeterAt }), [renderer, picture, lookSeq, cursor, meterAt]);
+  const value = useMemo(() => ({ renderer, cursor, setCursor, meterAt, setMeterAt }), [renderer, cursor, meterAt]);
   return (
     <RendererContext.Provider value={renderer}>
       <PreviewContext.Provider value={value}>{children}</PreviewContext.Provider>
@@ -67,12 +62,53 @@ export function PreviewProvider({ renderer, children }: { renderer: PreviewRende
   );
 }
 
+/**
+ * Draws the renderer's newest picture into `canvas` at most once per animation frame, and marks on `box`
+ * which look was asked for and which one the drawn picture shows (a picture carrying the latest look
+ * number shows the latest look). Returns the unsubscribe.
+ */
+export function drawPictures(renderer: PreviewRenderer, canvas: () => HTMLCanvasElement | null, box: () => HTMLElement | null): () => void {
+  let frame = 0;
+  let drawn: Picture | null = null;
+  const draw = () => {
+    frame = 0;
+    const picture = renderer.store.getState().picture;
+    const c = canvas();
+    if (!c || !picture || picture === drawn) return;
+    if (c.width !== picture.width) c.width = picture.width;
+    if (c.height !== picture.height) c.height = picture.height;
+    const ctx = c.getContext("2d");
+    if (!ctx) return;
+    ctx.putImageData(new ImageData(picture.rgba as Uint8ClampedArray<ArrayBuffer>, picture.width, picture.height), 0, 0);
+    drawn = picture;
+    box()?.setAttribute("data-look-shown", String(picture.lookSeq));
+  };
+  const schedule = () => {
+    if (!frame) frame = requestAnimationFrame(draw);
+  };
+  const mark = (seq: number) => box()?.setAttribute("data-look-requested", String(seq));
+  mark(renderer.store.getState().lookRequested);
+  schedule();
+  const unsubscribe = renderer.store.subscribe((s, prev) => {
+    if (s.lookRequested !== prev.lookRequested) mark(s.lookRequested);
+    if (s.picture !== prev.picture) schedule();
+  });
+  return () => {
+    unsubscribe();
+    if (frame) cancelAnimationFrame(frame);
+  };
+}
+
 export function PreviewCanvas() {
-  const { picture, lookSeq, setCursor, setMeterAt, meterAt } = usePreviewContext();
+  const { renderer, setCursor, setMeterAt, meterAt } = usePreviewContext();
   const canvasRef = useRef<HTMLCanvasElement>(null);
   const status = usePreview((s) => s.status);
   const error = usePreview((s) => s.error);
   const hash = usePreview((s) => s.accumulationHash);
+  // Only the picture's size re-renders this component; its pixels are drawn by drawPictures.
+  const width = usePreview((s) => s.picture?.width ?? 0);
+  const height = usePreview((s) => s.picture?.height ?? 0);
+  const image = width > 0 ? { width, height } : null;
   const [focusPx, setFocusPx] = useState<[number, number] | null>(null);
   // The picture is scaled to fit the panel (up or down) keeping its aspect ratio.
   const boxRef = useRef<HTMLDivElement>(null);
@@ -84,19 +120,18 @@ export function PreviewCanvas() {
     ro.observe(el);
     return () => ro.disconnect();
   }, []);
-  const image = picture;
   const fit = image && box ? ((k) => [Math.floor(image.width * k), Math.floor(image.height * k)] as const)(Math.max(0.01, Math.min(box[0] / image.width, box[1] / image.height))) : null;
 
-  // Drawing is all the page does with pixels: the worker already mapped them for display.
+  // Drawing is all the page does with pixels: the worker already mapped them for display. Started again
+  // when the canvas appears (first picture) or changes size (a new canvas size clears it).
   useEffect(() => {
-    const c = canvasRef.current;
-    if (!c || !picture) return;
-    if (c.width !== picture.width) c.width = picture.width;
-    if (c.height !== picture.height) c.height = picture.height;
-    const ctx = c.getContext("2d");
-    if (!ctx) return;
-    ctx.putImageData(new ImageData(picture.rgba as Uint8ClampedArray<ArrayBuffer>, picture.width, picture.height), 0, 0);
-  }, [picture]);
+    if (!renderer) return;
+    return drawPictures(
+      renderer,
+      () => canvasRef.current,
+      () => boxRef.current,
+    );
+  }, [renderer, width, height]);
 
   const toPixel = (e: React.MouseEvent<HTMLCanvasElement>): [number, number] | null => {
     const c = canvasRef.current;
@@ -136,8 +171,6 @@ export function PreviewCanvas() {
       className="relative flex min-h-0 flex-1 items-center justify-center overflow-hidden bg-[#0e0e0f] p-2"
       data-testid="preview"
       data-accumulation-hash={hash ?? undefined}
-      data-look-requested={lookSeq}
-      data-look-shown={picture?.lookSeq ?? 0}
     >
       {image ? (
         <div className="relative" style={fit ? { width: fit[0], height: fit[1] } : undefined}>
@@ -203,9 +236,23 @@ const NOISE_TARGETS: { value: number | null; label: string }[] = [
   { value: 0.01, label: "1%" },
 ];
 
+/** What the progress strip shows: a picture alone (a look change) does not re-render it. */
+const progressOf = ({ status, stopReason, sppDone, sppTarget, samplesPerSecond, elapsedMs, relStdError, width, height, workers }: PreviewState) => ({
+  status,
+  stopReason,
+  sppDone,
+  sppTarget,
+  samplesPerSecond,
+  elapsedMs,
+  relStdError,
+  width,
+  height,
+  workers,
+});
+
 export function ProgressStrip({ onRestart }: { onRestart: () => void }) {
   const renderer = usePreviewRenderer();
-  const p = usePreview((s) => s);
+  const p = usePreview(useShallow(progressOf));
   const store = useWorkspaceStore();
   const scale = useWorkspace((s) => s.scale);
   const noiseTarget = useWorkspace((s) => s.noiseTarget);
