@@ -85,6 +85,11 @@ export type WorkspaceDeps = {
   /** Edits with the same coalesce key within this many ms merge into one undo step (typing, slider drags). */
   coalesceMs?: number;
   historyLimit?: number;
+  /**
+   * Typing in the editor re-parses the text for the forms after this pause once the text is longer than
+   * `aboveChars` (a parse of a scene of a few hundred kilobytes costs tens of milliseconds, too much per key).
+   */
+  formParseDelay?: { aboveChars: number; ms: number };
 };
 
 export type WorkspaceStore = StoreApi<WorkspaceState>;
@@ -112,6 +117,7 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
   const now = deps.now ?? (() => Date.now());
   const coalesceMs = deps.coalesceMs ?? 1200;
   const historyLimit = deps.historyLimit ?? 300;
+  const formParseDelay = deps.formParseDelay ?? { aboveChars: 200_000, ms: 200 };
   let lastEdit: { key: string; at: number } | null = null;
 
   const startText = init.text ?? init.base.text;
@@ -122,7 +128,10 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
     let inFlight = false;
     // The latest successful parse: after a syntax error is fixed, unchanged sections still keep their identity.
     let lastParsed: unknown = null;
+    let parseTimer: ReturnType<typeof setTimeout> | undefined;
     const parse = (text: string) => {
+      clearTimeout(parseTimer);
+      parseTimer = undefined;
       const p = parseForForms(text, lastParsed);
       if (p !== null) lastParsed = p;
       return p;
@@ -179,7 +188,14 @@ export function createWorkspaceStore(init: WorkspaceInit, deps: WorkspaceDeps): 
       } else {
         lastEdit = null;
       }
-      set({ text, revision: s.revision + 1, lastSource: source, past, future, parsed: parse(text) });
+      if (source === "editor" && text.length > formParseDelay.aboveChars) {
+        // The forms follow a big scene's typing after a pause; until then they show the previous parse.
+        set({ text, revision: s.revision + 1, lastSource: source, past, future });
+        clearTimeout(parseTimer);
+        parseTimer = setTimeout(() => set({ parsed: parse(get().text) }), formParseDelay.ms);
+      } else {
+        set({ text, revision: s.revision + 1, lastSource: source, past, future, parsed: parse(text) });
+      }
       requestCheck();
     };
 

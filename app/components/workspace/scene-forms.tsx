@@ -9,7 +9,7 @@
 import { createContext, memo, Profiler, useContext, type ProfilerOnRenderCallback } from "react";
 import { useShallow } from "zustand/react/shallow";
 import { Notice } from "~/components/ui";
-import { getIn, type PathSegment } from "~/lib/workspace-json";
+import { getIn, valueAtPath, type PathSegment } from "~/lib/workspace-json";
 import {
   defaultLightShape,
   defaultMaterial,
@@ -157,7 +157,8 @@ function LightFields({ index, light }: { index: number; light: unknown }) {
   const setMode = (next: "radiance" | "power") => {
     if (next === mode) return;
     const s = store.getState();
-    const cur = getIn(s.parsed, base) as Record<string, unknown>;
+    // From the text itself: the forms' parse of a big scene may trail the latest keystroke by a moment.
+    const cur = (valueAtPath(s.text, base) ?? {}) as Record<string, unknown>;
     const a = emitterArea(cur.shape) ?? 1;
     const changes =
       next === "power"
@@ -173,7 +174,8 @@ function LightFields({ index, light }: { index: number; light: unknown }) {
   };
 
   const setShapeType = (t: "rect" | "disk" | "sphere") => {
-    store.getState().editPaths([{ path: [...base, "shape"], value: defaultLightShape(t, shapeCenter(shape), shapeSize(shape)) }], { label: `${ctx}: shape ${t}` });
+    const cur = valueAtPath(store.getState().text, [...base, "shape"]);
+    store.getState().editPaths([{ path: [...base, "shape"], value: defaultLightShape(t, shapeCenter(cur), shapeSize(cur)) }], { label: `${ctx}: shape ${t}` });
   };
 
   if (l.type === "point") {

@@ -1,4 +1,4 @@
-import { describe, expect, it } from "vitest";
+import { afterEach, describe, expect, it, vi } from "vitest";
 import { validateScene } from "@tracer/scene/validate";
 import { createWorkspaceStore, sceneToText } from "~/stores/workspace";
 import { valueAtPath } from "~/lib/workspace-json";
@@ -213,5 +213,54 @@ describe("combining my edits with a version saved in between", () => {
     const theirs = sceneToText({ ...kettleScene, render: { spp: 64 } });
     const mine = sceneToText({ ...kettleScene, render: { spp: 256 } });
     expect((combineEdits(base, mine, theirs) as typeof kettleScene).render.spp).toBe(256);
+  });
+});
+
+describe("the forms' parse of a big scene follows typing after a pause", () => {
+  function bigStore() {
+    vi.useFakeTimers();
+    // A threshold below the fixture's size stands in for a scene of a few hundred kilobytes.
+    return createWorkspaceStore(
+      { sceneId: "s1", canEdit: true, base: { id: "v1", number: 1, text: kettleText } },
+      { validate: validateScene, formParseDelay: { aboveChars: 100, ms: 200 } },
+    );
+  }
+  afterEach(() => vi.useRealTimers());
+
+  it("typing in the editor updates the text and its check at once, the parse after the pause", () => {
+    const store = bigStore();
+    const before = store.getState().parsed as typeof kettleScene;
+    store.getState().edit(kettleText.replace('"fovY": 40', '"fovY": 41'), { source: "editor", label: "typing", coalesceKey: "editor" });
+    store.getState().edit(kettleText.replace('"fovY": 40', '"fovY": 42'), { source: "editor", label: "typing", coalesceKey: "editor" });
+    expect(store.getState().parsed).toBe(before); // still the previous parse
+    expect(store.getState().lastGood?.scene.camera.fovY).toBe(42); // the check does not wait
+    vi.advanceTimersByTime(199);
+    expect(store.getState().parsed).toBe(before);
+    vi.advanceTimersByTime(1);
+    const after = store.getState().parsed as typeof kettleScene;
+    expect(after.camera.fovY).toBe(42);
+    expect(after.lights).toBe(before.lights); // unchanged slices keep their identity
+  });
+
+  it("form edits, undo and broken JSON are parsed at once, and a pending parse cannot bring back older text", () => {
+    const store = bigStore();
+    store.getState().edit(kettleText.replace('"fovY": 40', '"fovY": 41'), { source: "editor", label: "typing" });
+    store.getState().editPaths([{ path: ["lights", 0, "power"], value: 55 }], { label: "key power" });
+    const s = store.getState().parsed as typeof kettleScene;
+    expect(s.lights[0]!.power).toBe(55);
+    expect(s.camera.fovY).toBe(41);
+    vi.advanceTimersByTime(500);
+    expect((store.getState().parsed as typeof kettleScene).lights[0]!.power).toBe(55);
+    store.getState().undo();
+    expect((store.getState().parsed as typeof kettleScene).lights[0]!.power).toBe(40);
+    store.getState().edit(kettleText.slice(0, 120), { source: "editor", label: "typing" });
+    vi.advanceTimersByTime(200);
+    expect(store.getState().parsed).toBeNull();
+  });
+
+  it("small scenes are parsed on every keystroke", () => {
+    const store = createWorkspaceStore({ sceneId: "s1", canEdit: true, base: { id: "v1", number: 1, text: kettleText } }, { validate: validateScene });
+    store.getState().edit(kettleText.replace('"fovY": 40', '"fovY": 43'), { source: "editor", label: "typing" });
+    expect((store.getState().parsed as typeof kettleScene).camera.fovY).toBe(43);
   });
 });
