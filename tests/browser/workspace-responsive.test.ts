@@ -12,15 +12,10 @@
 //   answers a gain and an exposure change (drawn from pictures the coordinator worker sends).
 // Run against a served build with the test database: TEST_PORT=3111 bin/serve-test & then
 // TRACEWELL_URL=http://localhost:3111 bin/with-test-env npx vitest run --config vitest.browser.config.ts tests/browser/workspace-responsive.test.ts
-import { randomUUID } from "node:crypto";
-import { eq } from "drizzle-orm";
-import type { CDPSession, Page } from "playwright-core";
+import type { CDPSession } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { memberships, projects, users } from "~/db/schema";
-import { createScene } from "~/models/scene.server";
-import { db } from "~/services/db.server";
-import { hashPassword } from "~/services/password.server";
-import { BASE_URL, gotoHydrated, newPerson, screenshot } from "../support/browser";
+import { BASE_URL, screenshot } from "../support/browser";
+import { dropProject, makeUser, openWorkspace, projectWithScene, shownMean, signedIn, sppDone, waitForSpp, type Person } from "../support/workspace-page";
 
 const PASSWORD = "carafe-glass-rim-93";
 
@@ -56,39 +51,8 @@ const FINGERPRINTS: { label: string; test: (src: string) => boolean }[] = [
 ];
 const WORKER_CHUNK = /workspace-(session|check)\.worker/;
 
-type Person = Awaited<ReturnType<typeof newPerson>>;
 type Script = { id: string; url: string };
 type SlowFrame = { kind: string; duration: number; scripts: { url: string; fn: string; ms: number }[] };
-
-async function makeUser(label: string) {
-  const tag = randomUUID().slice(0, 8);
-  const email = `${label}-${tag}@example.test`;
-  const [u] = await db().insert(users).values({ email, name: `${label} ${tag}`, passwordHash: await hashPassword(PASSWORD) }).returning();
-  return { id: u!.id, email, name: u!.name };
-}
-
-async function signIn(p: Person, email: string) {
-  await gotoHydrated(p.page, "/login?next=/projects");
-  await p.page.getByLabel("E-mail").fill(email);
-  await p.page.getByLabel("Password").fill(PASSWORD);
-  await p.page.getByRole("button", { name: "Sign in" }).click();
-  await p.page.waitForURL((u) => u.pathname === "/projects", { timeout: 60_000 });
-}
-
-const sppDone = async (page: Page) => Number(await page.getByTestId("spp-done").innerText());
-
-/** Mean of the canvas's RGB bytes, read once the picture on screen answers the latest look sent to the worker. */
-async function shownMean(page: Page): Promise<number> {
-  const preview = page.getByTestId("preview");
-  await expect.poll(async () => (await preview.getAttribute("data-look-shown")) === (await preview.getAttribute("data-look-requested")), { timeout: 30_000 }).toBe(true);
-  return page.evaluate(() => {
-    const c = document.querySelector<HTMLCanvasElement>("[data-testid=preview] canvas")!;
-    const d = c.getContext("2d")!.getImageData(0, 0, c.width, c.height).data;
-    let s = 0;
-    for (let i = 0; i < d.length; i += 4) s += d[i]! + d[i + 1]! + d[i + 2]!;
-    return s / ((d.length / 4) * 3);
-  });
-}
 
 describe("the workspace stays responsive while it renders", () => {
   let projectId: string;
@@ -96,27 +60,26 @@ describe("the workspace stays responsive while it renders", () => {
   let p: Person;
 
   beforeAll(async () => {
-    const artist = await makeUser("anouk-resp");
-    const [project] = await db().insert(projects).values({ name: `Harrow Lane responsiveness ${randomUUID().slice(0, 6)}`, createdBy: artist.id }).returning();
-    projectId = project!.id;
-    await db().insert(memberships).values({ projectId, userId: artist.id, role: "owner" });
-    const created = await createScene({ projectId, name: "Carafe responsiveness test", scene, authorId: artist.id, message: "Window and lamp" });
-    if (!created.ok) throw new Error(JSON.stringify(created.issues));
-    path = `/projects/${projectId}/scenes/${created.scene.id}`;
-    p = await newPerson();
-    await signIn(p, artist.email);
+    const artist = await makeUser("anouk-resp", PASSWORD);
+    ({ projectId, path } = await projectWithScene({
+      name: "Harrow Lane responsiveness",
+      members: [{ account: artist, role: "owner" }],
+      sceneName: "Carafe responsiveness test",
+      scene,
+      message: "Window and lamp",
+    }));
+    p = await signedIn(artist);
   });
 
   afterAll(async () => {
     await p?.close();
-    if (projectId) await db().delete(projects).where(eq(projects.id, projectId));
+    await dropProject(projectId);
   });
 
   it("typing in the editor and dragging a slider during a render run no tracer code on the main thread", async () => {
     const { page } = p;
-    await gotoHydrated(page, path);
-    await page.waitForSelector("[data-testid=scene-editor] .monaco-editor", { timeout: 60_000 });
-    await expect.poll(() => sppDone(page), { timeout: 120_000, interval: 250 }).toBeGreaterThanOrEqual(2);
+    await openWorkspace(page, path);
+    await waitForSpp(page, 2);
 
     // The page target's debugger sees the main thread's scripts only (workers are targets of their own).
     const cdp: CDPSession = await page.context().newCDPSession(page);
@@ -161,7 +124,7 @@ describe("the workspace stays responsive while it renders", () => {
     await page.keyboard.type("35", { delay: 40 });
     await expect.poll(() => page.getByTestId("scene-valid").isVisible(), { timeout: 30_000 }).toBe(true);
     await expect.poll(() => page.getByLabel("camera: Vertical view (°)").inputValue()).toBe("35");
-    await expect.poll(() => sppDone(page), { timeout: 120_000, interval: 250 }).toBeGreaterThanOrEqual(2); // restarted with the new view
+    await waitForSpp(page, 2); // restarted with the new view
 
     // Drag the window group's gain up by mouse during the render: the picture brightens, nothing restarts.
     await page.getByRole("tab", { name: "Light balance" }).click();

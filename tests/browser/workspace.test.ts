@@ -2,15 +2,10 @@
 // number of samples in web workers, the light balance changes the picture without re-rendering and writes
 // back as an undoable edit, saving makes a version, and a save conflict from a second person is shown and
 // resolved without losing anything typed. Runs against a served build with the test database (bin/test).
-import { randomUUID } from "node:crypto";
-import { eq } from "drizzle-orm";
-import type { Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { memberships, projects, users } from "~/db/schema";
-import { createScene, getHead, getVersion, listVersions } from "~/models/scene.server";
-import { db } from "~/services/db.server";
-import { hashPassword } from "~/services/password.server";
-import { gotoHydrated, isLocal, newPerson, screenshot } from "../support/browser";
+import { getHead, getVersion, listVersions } from "~/models/scene.server";
+import { isLocal, newPerson, screenshot } from "../support/browser";
+import { canvasMean, dropProject, editorText, makeUser, openWorkspace, projectWithScene, signedIn, signIn, sppDone, type Account, type Person } from "../support/workspace-page";
 
 const PASSWORD = "wren-kettle-glaze-42";
 
@@ -37,50 +32,10 @@ const scene = {
   ],
 };
 
-type Person = Awaited<ReturnType<typeof newPerson>>;
-
-async function makeUser(label: string) {
-  const tag = randomUUID().slice(0, 8);
-  const email = `${label}-${tag}@example.test`;
-  const [u] = await db().insert(users).values({ email, name: `${label} ${tag}`, passwordHash: await hashPassword(PASSWORD) }).returning();
-  return { id: u!.id, email, name: u!.name };
-}
-
-async function signIn(p: Person, email: string) {
-  await gotoHydrated(p.page, "/login?next=/projects");
-  await p.page.getByLabel("E-mail").fill(email);
-  await p.page.getByLabel("Password").fill(PASSWORD);
-  await p.page.getByRole("button", { name: "Sign in" }).click();
-  await p.page.waitForURL((u) => u.pathname === "/projects", { timeout: 60_000 });
-}
-
-/** The text of the JSON editor's visible lines (Monaco renders only what is on screen). */
-const editorText = async (page: Page) => (await page.locator("[data-testid=scene-editor] .view-lines").innerText()).replace(/\u00a0/g, " ");
-
-async function openWorkspace(page: Page, path: string) {
-  await gotoHydrated(page, path);
-  await page.waitForSelector("[data-testid=scene-editor] .monaco-editor", { timeout: 60_000 });
-}
-
-async function sppDone(page: Page): Promise<number> {
-  return Number(await page.getByTestId("spp-done").innerText());
-}
-
-/** Mean of the canvas's RGB bytes: a summary of the picture's brightness. */
-async function canvasMean(page: Page): Promise<number> {
-  return page.evaluate(() => {
-    const c = document.querySelector<HTMLCanvasElement>("[data-testid=preview] canvas")!;
-    const d = c.getContext("2d")!.getImageData(0, 0, c.width, c.height).data;
-    let s = 0;
-    for (let i = 0; i < d.length; i += 4) s += d[i]! + d[i + 1]! + d[i + 2]!;
-    return s / ((d.length / 4) * 3);
-  });
-}
-
 describe("scene workspace", () => {
-  let owner: { id: string; email: string; name: string };
-  let editor: { id: string; email: string; name: string };
-  let viewer: { id: string; email: string; name: string };
+  let owner: Account;
+  let editor: Account;
+  let viewer: Account;
   let projectId: string;
   let sceneId: string;
   let path: string;
@@ -88,30 +43,28 @@ describe("scene workspace", () => {
   let b: Person;
 
   beforeAll(async () => {
-    owner = await makeUser("maren-ws");
-    editor = await makeUser("tobias-ws");
-    viewer = await makeUser("priya-ws");
-    const [project] = await db().insert(projects).values({ name: `Harrow Lane workspace ${randomUUID().slice(0, 6)}`, createdBy: owner.id }).returning();
-    projectId = project!.id;
-    await db().insert(memberships).values([
-      { projectId, userId: owner.id, role: "owner" },
-      { projectId, userId: editor.id, role: "editor" },
-      { projectId, userId: viewer.id, role: "viewer" },
-    ]);
-    const created = await createScene({ projectId, name: "Wren kettle workspace test", scene, authorId: owner.id, message: "First setup" });
-    if (!created.ok) throw new Error(JSON.stringify(created.issues));
-    sceneId = created.scene.id;
-    path = `/projects/${projectId}/scenes/${sceneId}`;
-    a = await newPerson();
-    b = await newPerson();
-    await signIn(a, owner.email);
-    await signIn(b, editor.email);
+    owner = await makeUser("maren-ws", PASSWORD);
+    editor = await makeUser("tobias-ws", PASSWORD);
+    viewer = await makeUser("priya-ws", PASSWORD);
+    ({ projectId, sceneId, path } = await projectWithScene({
+      name: "Harrow Lane workspace",
+      members: [
+        { account: owner, role: "owner" },
+        { account: editor, role: "editor" },
+        { account: viewer, role: "viewer" },
+      ],
+      sceneName: "Wren kettle workspace test",
+      scene,
+      message: "First setup",
+    }));
+    a = await signedIn(owner);
+    b = await signedIn(editor);
   });
 
   afterAll(async () => {
     await a?.close();
     await b?.close();
-    if (projectId) await db().delete(projects).where(eq(projects.id, projectId));
+    await dropProject(projectId);
   });
 
   it("a light's power edited in its form appears in the JSON, and undo takes it back", async () => {
@@ -350,7 +303,7 @@ describe("scene workspace", () => {
   it("viewers see the scene but cannot save", async () => {
     const c = await newPerson();
     try {
-      await signIn(c, viewer.email);
+      await signIn(c, viewer);
       await openWorkspace(c.page, path);
       expect(await c.page.getByTestId("read-only").innerText()).toMatch(/cannot|not edit or save/);
       expect(await c.page.getByRole("button", { name: "Save version…" }).count()).toBe(0);
