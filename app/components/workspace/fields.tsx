@@ -249,3 +249,24 @@ export function CheckField({ path, label, context, fallback }: { path: readonly 
     </label>
   );
 }
+
+/** A choice among fixed strings stored at one path of the scene (the render method, the tone map). */
+export function ChoiceField<T extends string>({
+  path,
+  label,
+  context,
+  options,
+  fallback,
+}: {
+  path: readonly PathSegment[];
+  label: string;
+  context: string;
+  options: readonly { value: T; label: string }[];
+  /** What the scene format uses when the member is absent. */
+  fallback: T;
+}) {
+  const raw = useSceneValue(path);
+  const edit = useEditPath();
+  const value = typeof raw === "string" ? (raw as T) : fallback;
+  return <SelectField label={label} context={context} path={path} value={value} options={options} onChange={(v) => edit(path, v, `${context}: ${label.toLowerCase()} ${v}`, false)} />;
+}

@@ -22,7 +22,7 @@ import {
 } from "~/lib/workspace-lights";
 import type { WorkspaceState } from "~/stores/workspace";
 import { useWorkspace, useWorkspaceStore } from "./context";
-import { CheckField, NumberField, SelectField, TextField, TripleField, useIssueAt, useSceneValue } from "./fields";
+import { CheckField, ChoiceField, NumberField, SelectField, TextField, TripleField, useIssueAt, useSceneValue } from "./fields";
 
 function Section({ title, children, open = false, testId }: { title: React.ReactNode; children: React.ReactNode; open?: boolean; testId?: string }) {
   return (
@@ -297,8 +297,6 @@ const MaterialForm = memo(function MaterialForm({ id }: { id: string }) {
 });
 
 const RenderForm = memo(function RenderForm() {
-  const store = useWorkspaceStore();
-  const integrator = useSceneValue(["render", "integrator"]);
   const ctx = "Render";
   return (
     <Measured id="render">
@@ -312,17 +310,16 @@ const RenderForm = memo(function RenderForm() {
           <NumberField path={["render", "maxDepth"]} label="Max bounces" context={ctx} min={1} />
         </Row>
         <Row>
-          <SelectField
+          <ChoiceField
             label="Method"
             context={ctx}
             path={["render", "integrator"]}
-            value={typeof integrator === "string" ? (integrator as "path" | "whitted" | "direct") : "path"}
+            fallback="path"
             options={[
               { value: "path", label: "Path tracing" },
               { value: "whitted", label: "Mirror and glass only" },
               { value: "direct", label: "Direct light only" },
             ]}
-            onChange={(v) => store.getState().editPaths([{ path: ["render", "integrator"], value: v }], { label: `${ctx}: method ${v}` })}
           />
           <NumberField path={["render", "seed"]} label="Seed" context={ctx} min={0} />
         </Row>
@@ -344,23 +341,20 @@ export const DisplayForm = memo(function DisplayForm({ open = false }: { open?: 
 
 /** Exposure and tone map live in the scene's display block, so the look travels with the scene. */
 export function DisplayFields() {
-  const store = useWorkspaceStore();
-  const tone = useSceneValue(["display", "toneMap"]);
   const ctx = "Display";
   return (
     <Row>
       <NumberField path={["display", "exposure"]} label="Exposure" unit="stops" context={ctx} step={0.5} />
-      <SelectField
+      <ChoiceField
         label="Tone map"
         context={ctx}
         path={["display", "toneMap"]}
-        value={typeof tone === "string" ? (tone as "none" | "reinhard" | "filmic") : "none"}
+        fallback="none"
         options={[
           { value: "none", label: "None (clip)" },
           { value: "reinhard", label: "Reinhard" },
           { value: "filmic", label: "Filmic" },
         ]}
-        onChange={(v) => store.getState().editPaths([{ path: ["display", "toneMap"], value: v }], { label: `${ctx}: tone map ${v}` })}
       />
     </Row>
   );
