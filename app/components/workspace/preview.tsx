@@ -67,7 +67,7 @@ export function PreviewProvider({ renderer, children }: { renderer: PreviewRende
  * which look was asked for and which one the drawn picture shows (a picture carrying the latest look
  * number shows the latest look). Returns the unsubscribe.
  */
-export function drawPictures(renderer: PreviewRenderer, canvas: () => HTMLCanvasElement | null, box: () => HTMLElement | null): () => void {
+export function drawPictures(renderer: Pick<PreviewRenderer, "store">, canvas: () => HTMLCanvasElement | null, box: () => HTMLElement | null): () => void {
   let frame = 0;
   let drawn: Picture | null = null;
   const draw = () => {
