@@ -11,10 +11,13 @@ const FORMAT = { insertSpaces: true, tabSize: 2, eol: "\n" } as const;
 
 /** Replace (or insert) the value at `path`; `undefined` removes the member. Throws if the text is not JSON. */
 export function setAtPath(text: string, path: readonly PathSegment[], value: unknown): string {
-  assertParseable(text);
+  // One parse both checks the text and finds the member (a form keystroke on a big scene pays for one, not two).
+  const errors: ParseError[] = [];
+  const root = parseTree(text, errors, { allowTrailingComma: false, disallowComments: true });
+  if (errors.length > 0 || !root) throw new Error(NOT_JSON);
   if (value !== undefined) {
     // Replacing an existing value: write it in our compact layout at the member's own indentation.
-    const node = findNodeAtLocation(parseTree(text, [], { disallowComments: true })!, [...path]);
+    const node = findNodeAtLocation(root, [...path]);
     if (node) {
       const lineStart = text.lastIndexOf("\n", node.offset - 1) + 1;
       const indent = /^[ \t]*/.exec(text.slice(lineStart))![0];
@@ -32,10 +35,12 @@ export function setManyAtPaths(text: string, changes: readonly { path: readonly 
   return out;
 }
 
+const NOT_JSON = "the scene text is not valid JSON; fix it in the editor first";
+
 export function assertParseable(text: string): void {
   const errors: ParseError[] = [];
   parseTree(text, errors, { allowTrailingComma: false, disallowComments: true });
-  if (errors.length > 0) throw new Error("the scene text is not valid JSON; fix it in the editor first");
+  if (errors.length > 0) throw new Error(NOT_JSON);
 }
 
 /** The value at a path of the text, or undefined (also when the text is not JSON). */
