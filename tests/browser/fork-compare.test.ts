@@ -9,29 +9,15 @@
 import { randomUUID } from "node:crypto";
 import { eq } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { compileScene } from "@tracer/compile/compile";
-import { addUnit, createAccumulation } from "@tracer/film/accumulate";
-import { renderUnit } from "@tracer/render/unit";
-import { validateScene } from "@tracer/scene/validate";
 import { TRACER_VERSION } from "@tracer/version";
-import { tileUnits } from "@tracer/workers/pool";
 import { users } from "~/db/schema";
-import { renderOutputs } from "~/lib/render-outputs";
 import { createScene, getScene, listScenes, listVersions } from "~/models/scene.server";
 import { db, dbPool } from "~/services/db.server";
-import { kettleScene } from "../support/a3-fixtures";
+import { kettleScene, renderInNode } from "../support/a3-fixtures";
 import { BASE_URL, gotoHydrated, isLocal, newPerson, screenshot } from "../support/browser";
 
 type PersonCtx = Awaited<ReturnType<typeof newPerson>>;
 
-function renderInNode(sceneJson: unknown) {
-  const checked = validateScene(sceneJson);
-  if (!checked.ok) throw new Error("invalid scene");
-  const compiled = compileScene(checked.scene, new Map());
-  const acc = createAccumulation(compiled.width, compiled.height, compiled.groupNames.length);
-  for (const unit of tileUnits(compiled.width, compiled.height, 8, 0, compiled.spp)) addUnit(acc, renderUnit(compiled, unit));
-  return { outputs: renderOutputs(acc, checked.scene.display, compiled.groupNames), scene: checked.scene };
-}
 
 async function publishVia(person: PersonCtx, projectId: string, sceneId: string, versionId: string, sceneJson: unknown, title: string) {
   const { outputs, scene } = renderInNode(sceneJson);

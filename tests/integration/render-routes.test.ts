@@ -4,19 +4,13 @@
 import { eq } from "drizzle-orm";
 import { decode as decodePng } from "fast-png";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { compileScene } from "@tracer/compile/compile";
-import { addUnit, createAccumulation } from "@tracer/film/accumulate";
-import { renderUnit } from "@tracer/render/unit";
-import { validateScene } from "@tracer/scene/validate";
 import { TRACER_VERSION } from "@tracer/version";
-import { tileUnits } from "@tracer/workers/pool";
 import { memberships, users } from "~/db/schema";
 import { publishForm, type PublishMeta } from "~/lib/publish-render.client";
-import { renderOutputs } from "~/lib/render-outputs";
 import { createScene, saveVersion } from "~/models/scene.server";
 import { db, dbPool } from "~/services/db.server";
 import { ensureBucket } from "~/services/storage.server";
-import { kettleScene } from "../support/a3-fixtures";
+import { kettleScene, renderInNode } from "../support/a3-fixtures";
 import { startApp, type AppServer } from "../support/app-server";
 import { pageText, Person, uniqueEmail } from "../support/person";
 
@@ -38,17 +32,9 @@ async function account(label: string) {
   return { person, id: row!.id };
 }
 
-function render(sceneJson: unknown) {
-  const checked = validateScene(sceneJson);
-  if (!checked.ok) throw new Error("invalid");
-  const compiled = compileScene(checked.scene, new Map());
-  const acc = createAccumulation(compiled.width, compiled.height, compiled.groupNames.length);
-  for (const unit of tileUnits(compiled.width, compiled.height, 8, 0, compiled.spp)) addUnit(acc, renderUnit(compiled, unit));
-  return { outputs: renderOutputs(acc, checked.scene.display, compiled.groupNames), scene: checked.scene };
-}
 
 async function publish(person: Person, projectId: string, sceneId: string, versionId: string, sceneJson: unknown, overrides: Partial<PublishMeta> = {}) {
-  const { outputs, scene } = render(sceneJson);
+  const { outputs, scene } = renderInNode(sceneJson);
   const meta: PublishMeta = {
     versionId,
     title: "review",

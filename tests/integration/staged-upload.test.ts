@@ -10,16 +10,10 @@ import { setFlagsFromString } from "node:v8";
 import { runInNewContext } from "node:vm";
 import { and, eq } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { compileScene } from "@tracer/compile/compile";
-import { addUnit, createAccumulation } from "@tracer/film/accumulate";
 import { encodePng } from "@tracer/io/png";
-import { renderUnit } from "@tracer/render/unit";
-import { validateScene } from "@tracer/scene/validate";
 import { TRACER_VERSION } from "@tracer/version";
-import { tileUnits } from "@tracer/workers/pool";
 import { assets, memberships, renders, uploads, users } from "~/db/schema";
 import { publishFiles, type PublishMeta } from "~/lib/publish-render.client";
-import { renderOutputs } from "~/lib/render-outputs";
 import { assetKey } from "~/models/asset.server";
 import { deleteRender } from "~/models/render.server";
 import { createScene } from "~/models/scene.server";
@@ -27,7 +21,7 @@ import { cancelUpload, getUploadFor, receiveUploadFile, startUpload, sweepStaleU
 import { db, dbPool } from "~/services/db.server";
 import { readRenderFile } from "~/services/render-files.server";
 import { ensureBucket, listKeys, objectExists, objectSize, s3 } from "~/services/storage.server";
-import { kettleScene } from "../support/a3-fixtures";
+import { kettleScene, renderInNode } from "../support/a3-fixtures";
 import { startApp, type AppServer } from "../support/app-server";
 import { Person, uniqueEmail } from "../support/person";
 
@@ -87,14 +81,6 @@ async function call(person: Person, path: string, init: { method?: string; json?
 
 const sha = (b: Uint8Array) => createHash("sha256").update(b).digest("hex");
 
-function render(sceneJson: unknown) {
-  const checked = validateScene(sceneJson);
-  if (!checked.ok) throw new Error("invalid");
-  const compiled = compileScene(checked.scene, new Map());
-  const acc = createAccumulation(compiled.width, compiled.height, compiled.groupNames.length);
-  for (const unit of tileUnits(compiled.width, compiled.height, 8, 0, compiled.spp)) addUnit(acc, renderUnit(compiled, unit));
-  return { outputs: renderOutputs(acc, checked.scene.display, compiled.groupNames), scene: checked.scene };
-}
 
 /** An owner, a viewer and an editor of one project with a rendered 16×12 kettle scene; a second project elsewhere. */
 async function setup() {
@@ -109,7 +95,7 @@ async function setup() {
   const sceneJson = kettleScene({ spp: 2 });
   const created = await createScene({ projectId, name: "Kettle", scene: sceneJson, authorId: owner.id });
   if (!created.ok) throw new Error("scene");
-  const { outputs, scene } = render(sceneJson);
+  const { outputs, scene } = renderInNode(sceneJson);
   const meta: PublishMeta & { groups: string[] } = {
     versionId: created.version.id,
     title: "staged",

@@ -2,6 +2,12 @@
 import { randomUUID } from "node:crypto";
 import { memberships, projects, users } from "~/db/schema";
 import { db } from "~/services/db.server";
+import { compileScene } from "@tracer/compile/compile";
+import { addUnit, createAccumulation } from "@tracer/film/accumulate";
+import { renderUnit } from "@tracer/render/unit";
+import { validateScene } from "@tracer/scene/validate";
+import { tileUnits } from "@tracer/workers/pool";
+import { renderOutputs } from "~/lib/render-outputs";
 
 export async function makeUser(label = "user") {
   const tag = randomUUID().slice(0, 8);
@@ -43,4 +49,17 @@ export function kettleScene(overrides: { name?: string; roughness?: number; radi
       },
     ],
   };
+}
+
+/**
+ * Renders a scene (no assets) to its own spp in Node and returns the files a publish stores, with the
+ * validated scene: what tests publish as if a browser had rendered it.
+ */
+export function renderInNode(sceneJson: unknown) {
+  const checked = validateScene(sceneJson);
+  if (!checked.ok) throw new Error("invalid scene");
+  const compiled = compileScene(checked.scene, new Map());
+  const acc = createAccumulation(compiled.width, compiled.height, compiled.groupNames.length);
+  for (const unit of tileUnits(compiled.width, compiled.height, 8, 0, compiled.spp)) addUnit(acc, renderUnit(compiled, unit));
+  return { outputs: renderOutputs(acc, checked.scene.display, compiled.groupNames), scene: checked.scene };
 }
