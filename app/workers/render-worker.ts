@@ -9,6 +9,7 @@ import { createDatabase } from "~/services/db.server";
 import { EnvSchema } from "~/services/env.server";
 import { ChunkJobSchema, MergeJobSchema, PoolNameSchema, enqueueMerge, queueNames, startBoss } from "~/services/queue.server";
 import { PermanentJobError, mergeRender, runChunk, type ObjectStore, type PoolDeps } from "./pool.server";
+import { retryWhileUnreachable } from "./reachable";
 
 const WorkerEnvSchema = EnvSchema.pick({
   DATABASE_URL: true,
@@ -96,24 +97,8 @@ async function main() {
     return "retry";
   }
 
-  /**
-   * Runs a bookkeeping step of a failed chunk, retrying once a second while the database cannot be
-   * reached (up to two minutes). A chunk that fails because the database went away must be released
-   * and reported after it is back: if the report were attempted while it is still down, pg-boss could
-   * not record the failure and the job would sit "active" until its expiry (RENDER_CHUNK_EXPIRE_SECONDS)
-   * instead of being retried a second later.
-   */
-  async function whenReachable<T>(step: () => Promise<T>): Promise<T> {
-    const giveUp = Date.now() + 120_000;
-    for (;;) {
-      try {
-        return await step();
-      } catch (err) {
-        if (!isConnectionError(err) || Date.now() > giveUp || stopping) throw err;
-        await new Promise((res) => setTimeout(res, 1000));
-      }
-    }
-  }
+  // A failed chunk's bookkeeping waits for the database (see reachable.ts) so the failure is recorded.
+  const whenReachable = <T>(step: () => Promise<T>) => retryWhileUnreachable(step, { stopping: () => stopping });
 
   const queues = queueNames(env.RENDER_POOL);
   await boss.work(queues.chunk, { pollingIntervalSeconds: env.RENDER_WORKER_POLL_SECONDS, batchSize: 1, includeMetadata: true }, async ([job]) => {
@@ -168,13 +153,3 @@ main().catch((err: unknown) => {
   process.exit(1);
 });
 
-/** Errors that mean "the database is not reachable right now" rather than "this request is wrong". */
-function isConnectionError(err: unknown): boolean {
-  const code = typeof err === "object" && err !== null && "code" in err ? String((err as { code: unknown }).code) : "";
-  const cause = typeof err === "object" && err !== null && "cause" in err ? (err as { cause: unknown }).cause : undefined;
-  // ECONNREFUSED/ECONNRESET: no server; 57P01 admin shutdown, 57P02 crash shutdown, 57P03 cannot connect now.
-  if (["ECONNREFUSED", "ECONNRESET", "EPIPE", "57P01", "57P02", "57P03"].includes(code)) return true;
-  const message = err instanceof Error ? err.message : String(err);
-  if (/Connection terminated|connect ECONNREFUSED|terminating connection/i.test(message)) return true;
-  return cause !== undefined && cause !== err && isConnectionError(cause);
-}
