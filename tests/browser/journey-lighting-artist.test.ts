@@ -5,25 +5,13 @@
 // Runs against a served build: TEST_PORT=3150 bin/serve-test &  then
 //   TRACEWELL_URL=http://localhost:3150 bin/with-test-env npx vitest run --config vitest.browser.config.ts tests/browser/journey-lighting-artist.test.ts
 import { eq } from "drizzle-orm";
-import type { Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { renders } from "~/db/schema";
 import { createScene, getHead } from "~/models/scene.server";
 import { db, dbPool } from "~/services/db.server";
 import { newPerson, screenshot } from "../support/browser";
+import { canvasMean, editorText } from "../support/workspace-page";
 import { journeyProject, journeyUser, lampCorner, openWorkspace, signIn, sppDone, type Browser } from "./journey-support";
-
-const editorText = async (page: Page) => (await page.locator("[data-testid=scene-editor] .view-lines").innerText()).replace(/\u00a0/g, " ");
-
-async function canvasMean(page: Page): Promise<number> {
-  return page.evaluate(() => {
-    const c = document.querySelector<HTMLCanvasElement>("[data-testid=preview] canvas")!;
-    const d = c.getContext("2d")!.getImageData(0, 0, c.width, c.height).data;
-    let s = 0;
-    for (let i = 0; i < d.length; i += 4) s += d[i]! + d[i + 1]! + d[i + 2]!;
-    return s / ((d.length / 4) * 3);
-  });
-}
 
 describe("journey: a lighting artist blocks in a scene", () => {
   let artist: Browser;
