@@ -12,7 +12,7 @@
 //   answers a gain and an exposure change (drawn from pictures the coordinator worker sends).
 // Run against a served build with the test database: TEST_PORT=3111 bin/serve-test & then
 // TRACEWELL_URL=http://localhost:3111 bin/with-test-env npx vitest run --config vitest.browser.config.ts tests/browser/workspace-responsive.test.ts
-import type { CDPSession } from "playwright-core";
+import type { CDPSession, Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { BASE_URL, screenshot } from "../support/browser";
 import { dropProject, makeUser, openWorkspace, projectWithScene, shownMean, signedIn, sppDone, waitForSpp, type Person } from "../support/workspace-page";
@@ -53,6 +53,9 @@ const WORKER_CHUNK = /workspace-(session|check)\.worker/;
 
 type Script = { id: string; url: string };
 type SlowFrame = { kind: string; duration: number; scripts: { url: string; fn: string; ms: number }[] };
+
+/** Which render run the progress strip shows (a restart starts a new run). */
+const runId = async (page: Page): Promise<number> => Number(await page.getByTestId("progress-status").getAttribute("data-run-id"));
 
 describe("the workspace stays responsive while it renders", () => {
   let projectId: string;
@@ -120,10 +123,13 @@ describe("the workspace stays responsive while it renders", () => {
     await expect.poll(() => page.getByTestId("scene-issues").innerText(), { timeout: 30_000 }).toContain("camera.fovY");
     await expect.poll(() => page.locator("[data-testid=scene-editor] .squiggly-error").count()).toBeGreaterThan(0);
     expect(await page.locator("[data-testid=preview] canvas").count()).toBe(1); // the last good picture stays
+    const runBefore = await runId(page);
     for (let i = 0; i < 3; i++) await page.keyboard.press("Backspace");
     await page.keyboard.type("35", { delay: 40 });
     await expect.poll(() => page.getByTestId("scene-valid").isVisible(), { timeout: 30_000 }).toBe(true);
     await expect.poll(() => page.getByLabel("camera: Vertical view (°)").inputValue()).toBe("35");
+    // The valid edit restarts the render after its debounce: wait for the new run, not the old one's samples.
+    await expect.poll(() => runId(page), { timeout: 60_000 }).toBeGreaterThan(runBefore);
     await waitForSpp(page, 2); // restarted with the new view
 
     // Drag the window group's gain up by mouse during the render: the picture brightens, nothing restarts.

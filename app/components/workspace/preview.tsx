@@ -237,8 +237,9 @@ const NOISE_TARGETS: { value: number | null; label: string }[] = [
 ];
 
 /** What the progress strip shows: a picture alone (a look change) does not re-render it. */
-const progressOf = ({ status, stopReason, sppDone, sppTarget, samplesPerSecond, elapsedMs, relStdError, width, height, workers }: PreviewState) => ({
+const progressOf = ({ status, runId, stopReason, sppDone, sppTarget, samplesPerSecond, elapsedMs, relStdError, width, height, workers }: PreviewState) => ({
   status,
+  runId,
   stopReason,
   sppDone,
   sppTarget,
@@ -270,7 +271,7 @@ export function ProgressStrip({ onRestart }: { onRestart: () => void }) {
   return (
     <section aria-label="Render progress" className="flex flex-col gap-1.5 border-t border-line bg-panel px-3 py-2 text-xs" data-testid="progress">
       <div className="flex items-center gap-3">
-        <span className={cx("font-medium", p.status === "error" ? "text-danger" : p.status === "done" ? "text-ok" : "text-ink")} data-testid="progress-status">
+        <span className={cx("font-medium", p.status === "error" ? "text-danger" : p.status === "done" ? "text-ok" : "text-ink")} data-testid="progress-status" data-run-id={p.runId}>
           {statusText[p.status]}
         </span>
         <span className="tabular-nums text-ink" data-testid="spp">
