@@ -215,37 +215,8 @@ export function traceRay(s: CompiledScene, ray: Ray, hit: Hit, ts: TraceScratch,
     if (count === 0) {
       const left = node + 1;
       const right = words[nb + 6];
-      // boxEntry for both children, written out here: TurboFan does not inline it into a function
-      // this large, and a call boxes its nine double arguments and its result on the heap.
-      let tl = Infinity, tr = Infinity;
-      {
-        const lb = left * NODE_WORDS;
-        let t0 = (nodes[lb + nxo] - ox) * ix;
-        let t1 = (nodes[lb + 3 - nxo] - ox) * ix;
-        const y0 = (nodes[lb + nyo] - oy) * iy;
-        const y1 = (nodes[lb + 5 - nyo] - oy) * iy;
-        if (y0 > t0) t0 = y0;
-        if (y1 < t1) t1 = y1;
-        const z0 = (nodes[lb + nzo] - oz) * iz;
-        const z1 = (nodes[lb + 7 - nzo] - oz) * iz;
-        if (z0 > t0) t0 = z0;
-        if (z1 < t1) t1 = z1;
-        if (t0 <= t1 * 1.0000001 + 1e-12 && t1 >= 0 && t0 < tmax) tl = t0 > 0 ? t0 : 0;
-      }
-      {
-        const rb = right * NODE_WORDS;
-        let t0 = (nodes[rb + nxo] - ox) * ix;
-        let t1 = (nodes[rb + 3 - nxo] - ox) * ix;
-        const y0 = (nodes[rb + nyo] - oy) * iy;
-        const y1 = (nodes[rb + 5 - nyo] - oy) * iy;
-        if (y0 > t0) t0 = y0;
-        if (y1 < t1) t1 = y1;
-        const z0 = (nodes[rb + nzo] - oz) * iz;
-        const z1 = (nodes[rb + 7 - nzo] - oz) * iz;
-        if (z0 > t0) t0 = z0;
-        if (z1 < t1) t1 = z1;
-        if (t0 <= t1 * 1.0000001 + 1e-12 && t1 >= 0 && t0 < tmax) tr = t0 > 0 ? t0 : 0;
-      }
+      const tl = boxEntry(nodes, left * NODE_WORDS, ox, oy, oz, ix, iy, iz, nxo, nyo, nzo, tmax);
+      const tr = boxEntry(nodes, right * NODE_WORDS, ox, oy, oz, ix, iy, iz, nxo, nyo, nzo, tmax);
       if (tl !== Infinity) {
         if (tr !== Infinity) {
           if (tr < tl) {
