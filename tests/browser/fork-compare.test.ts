@@ -9,36 +9,23 @@
 import { randomUUID } from "node:crypto";
 import { eq } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { TRACER_VERSION } from "@tracer/version";
 import { users } from "~/db/schema";
 import { createScene, getScene, listScenes, listVersions } from "~/models/scene.server";
 import { db, dbPool } from "~/services/db.server";
-import { kettleScene, renderInNode } from "../support/a3-fixtures";
+import { kettleScene, renderInNode, publishMetaOf } from "../support/a3-fixtures";
 import { BASE_URL, gotoHydrated, isLocal, newPerson, screenshot } from "../support/browser";
 
 type PersonCtx = Awaited<ReturnType<typeof newPerson>>;
 
 
 async function publishVia(person: PersonCtx, projectId: string, sceneId: string, versionId: string, sceneJson: unknown, title: string) {
-  const { outputs, scene } = renderInNode(sceneJson);
+  const rendered = renderInNode(sceneJson);
+  const { outputs } = rendered;
   const file = (name: string, mimeType: string, bytes: Uint8Array) => ({ name, mimeType, buffer: Buffer.from(bytes) });
   const res = await person.page.request.post(new URL(`/projects/${projectId}/renders/publish`, BASE_URL).toString(), {
     multipart: {
       sceneId,
-      meta: JSON.stringify({
-        versionId,
-        title,
-        spp: scene.render.spp,
-        seed: scene.render.seed,
-        width: scene.image.width,
-        height: scene.image.height,
-        integrator: scene.render.integrator,
-        tracerVersion: TRACER_VERSION,
-        accumulationHash: outputs.accumulationHash,
-        renderMs: 100,
-        samplesPerSecond: 10_000,
-        groups: [],
-      }),
+      meta: JSON.stringify({ ...publishMetaOf(versionId, rendered, { title, renderMs: 100, samplesPerSecond: 10_000 }), groups: [] }),
       pfm: file("beauty.pfm", "application/x-portable-floatmap", outputs.pfm),
       hdr: file("beauty.hdr", "image/vnd.radiance", outputs.hdr),
       png: file("display.png", "image/png", outputs.png),

@@ -4,13 +4,12 @@
 import { eq } from "drizzle-orm";
 import { decode as decodePng } from "fast-png";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { TRACER_VERSION } from "@tracer/version";
 import { memberships, users } from "~/db/schema";
 import { publishForm, type PublishMeta } from "~/lib/publish-render.client";
 import { createScene, saveVersion } from "~/models/scene.server";
 import { db, dbPool } from "~/services/db.server";
 import { ensureBucket } from "~/services/storage.server";
-import { kettleScene, renderInNode } from "../support/a3-fixtures";
+import { kettleScene, renderInNode, publishMetaOf } from "../support/a3-fixtures";
 import { startApp, type AppServer } from "../support/app-server";
 import { pageText, Person, uniqueEmail } from "../support/person";
 
@@ -34,21 +33,9 @@ async function account(label: string) {
 
 
 async function publish(person: Person, projectId: string, sceneId: string, versionId: string, sceneJson: unknown, overrides: Partial<PublishMeta> = {}) {
-  const { outputs, scene } = renderInNode(sceneJson);
-  const meta: PublishMeta = {
-    versionId,
-    title: "review",
-    spp: scene.render.spp,
-    seed: scene.render.seed,
-    width: scene.image.width,
-    height: scene.image.height,
-    integrator: scene.render.integrator,
-    tracerVersion: TRACER_VERSION,
-    accumulationHash: outputs.accumulationHash,
-    renderMs: 1000,
-    samplesPerSecond: 5000,
-    ...overrides,
-  };
+  const rendered = renderInNode(sceneJson);
+  const { outputs } = rendered;
+  const meta: PublishMeta = { ...publishMetaOf(versionId, rendered, { title: "review", renderMs: 1000, samplesPerSecond: 5000 }), ...overrides };
   const form = publishForm({ sceneId, meta, files: outputs });
   const res = await person.send(`/projects/${projectId}/renders/publish`, { method: "POST", body: form });
   return { status: res.status, body: JSON.parse(res.text) as { ok: boolean; error?: string; field?: string; render?: { id: string; accumulationHash: string } }, outputs };

@@ -21,7 +21,7 @@ import { cancelUpload, getUploadFor, receiveUploadFile, startUpload, sweepStaleU
 import { db, dbPool } from "~/services/db.server";
 import { readRenderFile } from "~/services/render-files.server";
 import { ensureBucket, listKeys, objectExists, objectSize, s3 } from "~/services/storage.server";
-import { kettleScene, renderInNode } from "../support/a3-fixtures";
+import { kettleScene, renderInNode, publishMetaOf } from "../support/a3-fixtures";
 import { startApp, type AppServer } from "../support/app-server";
 import { Person, uniqueEmail } from "../support/person";
 
@@ -95,19 +95,10 @@ async function setup() {
   const sceneJson = kettleScene({ spp: 2 });
   const created = await createScene({ projectId, name: "Kettle", scene: sceneJson, authorId: owner.id });
   if (!created.ok) throw new Error("scene");
-  const { outputs, scene } = renderInNode(sceneJson);
+  const rendered = renderInNode(sceneJson);
+  const { outputs } = rendered;
   const meta: PublishMeta & { groups: string[] } = {
-    versionId: created.version.id,
-    title: "staged",
-    spp: scene.render.spp,
-    seed: scene.render.seed,
-    width: scene.image.width,
-    height: scene.image.height,
-    integrator: scene.render.integrator,
-    tracerVersion: TRACER_VERSION,
-    accumulationHash: outputs.accumulationHash,
-    renderMs: 10,
-    samplesPerSecond: 100,
+    ...publishMetaOf(created.version.id, rendered, { title: "staged", renderMs: 10, samplesPerSecond: 100 }),
     groups: Object.keys(outputs.groups),
   };
   const files = publishFiles(outputs).map((f) => ({ ...f, body: f.body as Uint8Array }));

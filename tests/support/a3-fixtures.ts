@@ -8,6 +8,8 @@ import { renderUnit } from "@tracer/render/unit";
 import { validateScene } from "@tracer/scene/validate";
 import { tileUnits } from "@tracer/workers/pool";
 import { renderOutputs } from "~/lib/render-outputs";
+import type { PublishMeta } from "~/lib/publish-render.client";
+import { TRACER_VERSION } from "@tracer/version";
 
 export async function makeUser(label = "user") {
   const tag = randomUUID().slice(0, 8);
@@ -62,4 +64,26 @@ export function renderInNode(sceneJson: unknown) {
   const acc = createAccumulation(compiled.width, compiled.height, compiled.groupNames.length);
   for (const unit of tileUnits(compiled.width, compiled.height, 8, 0, compiled.spp)) addUnit(acc, renderUnit(compiled, unit));
   return { outputs: renderOutputs(acc, checked.scene.display, compiled.groupNames), scene: checked.scene };
+}
+
+/** The metadata a browser sends when it publishes `rendered` as a render of version `versionId`. */
+export function publishMetaOf(
+  versionId: string,
+  rendered: ReturnType<typeof renderInNode>,
+  facts: { title: string; renderMs: number; samplesPerSecond: number },
+): PublishMeta {
+  const { scene, outputs } = rendered;
+  return {
+    versionId,
+    title: facts.title,
+    spp: scene.render.spp,
+    seed: scene.render.seed,
+    width: scene.image.width,
+    height: scene.image.height,
+    integrator: scene.render.integrator,
+    tracerVersion: TRACER_VERSION,
+    accumulationHash: outputs.accumulationHash,
+    renderMs: facts.renderMs,
+    samplesPerSecond: facts.samplesPerSecond,
+  };
 }
