@@ -9,7 +9,7 @@ import { createPoolRender, getPoolRender, listChunks, planChunks, sceneForRender
 import { db, dbPool } from "~/services/db.server";
 import { deleteObject, ensureBucket, getObjectBytes, putObject } from "~/services/storage.server";
 import { PermanentJobError, mergeRender, renderPasses, runChunk, type PoolDeps } from "~/workers/pool.server";
-import { accumulationHash, compileScene, decodePfm, deserializeAccumulation, resolveBeauty, serializeAccumulation, TRACER_VERSION, validateScene } from "@tracer/index";
+import { accumulationHash, compileScene, type Accumulation, decodePfm, deserializeAccumulation, resolveBeauty, serializeAccumulation, TRACER_VERSION, validateScene } from "@tracer/index";
 import { makeProject, makeScene, makeUser, studioScene } from "./api-fixtures";
 
 const store = { get: getObjectBytes, put: putObject, delete: deleteObject };
@@ -22,6 +22,39 @@ function compiledFor(doc: Record<string, unknown>, r: { width: number; height: n
   const checked = validateScene(sceneForRender(doc, r));
   if (!checked.ok) throw new Error(JSON.stringify(checked.issues));
   return compileScene(checked.scene, new Map());
+}
+
+/**
+ * A finished browser render of the test scene whose stored state is `state` and whose row claims
+ * `claimedSpp` passes: what a pool render continues from.
+ */
+async function storedBrowserRender(
+  name: string,
+  state: Accumulation,
+  o: { claimedSpp: number; size: { width: number; height: number; seed: number }; withHash: boolean },
+) {
+  const stateKey = `tests/pool-core/${ctx.scene.id}/${name}`;
+  await putObject(stateKey, serializeAccumulation(state));
+  const [browser] = await db()
+    .insert(renders)
+    .values({
+      projectId: ctx.project.id,
+      sceneId: ctx.scene.id,
+      versionId: ctx.version.id,
+      source: "browser",
+      status: "done",
+      spp: o.claimedSpp,
+      sppDone: o.claimedSpp,
+      ...o.size,
+      integrator: "path",
+      tracerVersion: TRACER_VERSION,
+      ...(o.withHash ? { accumulationHash: accumulationHash(state) } : {}),
+      files: { state: stateKey },
+      createdBy: ctx.user.id,
+      finishedAt: new Date(),
+    })
+    .returning();
+  return browser!;
 }
 
 let ctx: Awaited<ReturnType<typeof setup>>;
@@ -86,27 +119,7 @@ describe("pool chunks and merge", () => {
     const size = { width: 20, height: 12, seed: 17 };
     const compiled = compiledFor(ctx.doc, size);
     const preview = await renderPasses(compiled, 0, 4);
-    const stateKey = `tests/pool-core/${ctx.scene.id}/state.bin`;
-    await putObject(stateKey, serializeAccumulation(preview!));
-    const [browser] = await db()
-      .insert(renders)
-      .values({
-        projectId: ctx.project.id,
-        sceneId: ctx.scene.id,
-        versionId: ctx.version.id,
-        source: "browser",
-        status: "done",
-        spp: 4,
-        sppDone: 4,
-        ...size,
-        integrator: "path",
-        tracerVersion: TRACER_VERSION,
-        accumulationHash: accumulationHash(preview!),
-        files: { state: stateKey },
-        createdBy: ctx.user.id,
-        finishedAt: new Date(),
-      })
-      .returning();
+    const browser = await storedBrowserRender("state.bin", preview!, { claimedSpp: 4, size, withHash: true });
     const render = await createPoolRender(db(), {
       projectId: ctx.project.id,
       sceneId: ctx.scene.id,
@@ -161,26 +174,8 @@ describe("pool chunks and merge", () => {
   it("refuses to continue from state that does not hold exactly the passes its render claims", async () => {
     const size = { width: 20, height: 12, seed: 17 };
     const preview = await renderPasses(compiledFor(ctx.doc, size), 0, 3);
-    const stateKey = `tests/pool-core/${ctx.scene.id}/short-state.bin`;
-    await putObject(stateKey, serializeAccumulation(preview!));
-    const [browser] = await db()
-      .insert(renders)
-      .values({
-        projectId: ctx.project.id,
-        sceneId: ctx.scene.id,
-        versionId: ctx.version.id,
-        source: "browser",
-        status: "done",
-        spp: 4,
-        sppDone: 4, // claims 4 passes, holds 3
-        ...size,
-        integrator: "path",
-        tracerVersion: TRACER_VERSION,
-        files: { state: stateKey },
-        createdBy: ctx.user.id,
-        finishedAt: new Date(),
-      })
-      .returning();
+    // The row claims 4 passes; its state holds 3.
+    const browser = await storedBrowserRender("short-state.bin", preview!, { claimedSpp: 4, size, withHash: false });
     const render = await createPoolRender(db(), {
       projectId: ctx.project.id,
       sceneId: ctx.scene.id,
