@@ -3,7 +3,8 @@
 // broke (the cluster is started again in `finally` whatever happens).
 //
 // The database outage is real: it touches every process using the local cluster for a few seconds, so this file
-// keeps it to one short outage. Run it on its own: bin/with-test-env npx vitest run tests/integration/faults.test.ts
+// keeps it to one short outage, and bin/test runs it on its own after the other files. Run it alone by hand too:
+// bin/with-test-env npx vitest run tests/integration/faults.test.ts
 import { execFile } from "node:child_process";
 import { createServer, request as httpRequest, type IncomingMessage, type Server, type ServerResponse } from "node:http";
 import { promisify } from "node:util";
