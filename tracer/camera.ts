@@ -36,22 +36,16 @@ export function compileCamera(cam: Camera, width: number, height: number): Float
   return c;
 }
 
+/** Length of a camera sample: film x, film y (pixels), lens u, lens v, shutter u. */
+export const CAMERA_SAMPLE_LENGTH = 5;
+
 /**
- * Ray through film position (fx, fy) in pixels (0,0 = top-left corner of the image), lens sample (u1, u2)
- * and shutter sample ut. Writes a unit direction.
+ * Ray through film position (cs[0], cs[1]) in pixels (0,0 = top-left corner of the image), lens sample
+ * (cs[2], cs[3]) and shutter sample cs[4]. Writes a unit direction. The sample comes in one array, not as
+ * five arguments: V8 does not inline this into the render loop and would box each double argument.
  */
-export function generateRay(
-  c: Float64Array,
-  width: number,
-  height: number,
-  fx: number,
-  fy: number,
-  u1: number,
-  u2: number,
-  ut: number,
-  lens: Float64Array,
-  ray: Ray,
-): void {
+export function generateRay(c: Float64Array, width: number, height: number, cs: Float64Array, lens: Float64Array, ray: Ray): void {
+  const fx = cs[0], fy = cs[1], u1 = cs[2], u2 = cs[3], ut = cs[4];
   const sx = (2 * fx) / width - 1;
   const sy = 1 - (2 * fy) / height;
   // direction to the point on the plane at unit distance along forward

@@ -75,9 +75,10 @@ export function quantiseInto(
   let qb = 0;
   const n3 = groupCount * 3;
   for (let i = 0; i < n3; i++) {
-    let x = groupRgb[i];
-    if (!(x > 0)) x = 0; // negative, NaN → 0
-    else if (x > QUANT_MAX_RADIANCE) x = QUANT_MAX_RADIANCE;
+    // negative, NaN → 0. One expression, not a variable reassigned with integer constants: V8 kept such a
+    // variable as a tagged value and boxed every double it held (one heap number per value quantised).
+    const x0 = groupRgb[i];
+    const x = x0 > 0 ? Math.min(x0, QUANT_MAX_RADIANCE) : 0;
     // 16 bits of dither per value: two values per uint32 word of the reserved random block
     const word = dither[(i >>> 1) & 3];
     const u = ((i & 1) === 0 ? word & 0xffff : word >>> 16) * (1 / 65536);

@@ -38,6 +38,13 @@ export class PathScratch {
   readonly light = new LightSample();
   readonly basis = new Float64Array(6);
   readonly rgb = new Float64Array(3);
+  /**
+   * In/out slots of envRadiance, envPdf and lightPdf (direction, distance, pdf) and the roulette number.
+   * Doubles go to the calls
+   * V8 does not inline through arrays and object fields, never as arguments or return values, which it
+   * would box on the heap: the loop allocates nothing per sample (checked by a heap-sampling test).
+   */
+  readonly query = new Float64Array(8);
   /** per-group radiance of the current sample, groups×3 */
   groups: Float64Array;
   constructor(groupCount: number) {
@@ -59,6 +66,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
   const ls = sc.light;
   const B = sc.basis;
   const rgb = sc.rgb;
+  const query = sc.query;
   const mats = s.materials;
   const lights = s.lights;
   const info = s.primInfo;
@@ -74,9 +82,15 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
     rng.seek(CAMERA_DIMS + (depth - 1) * DIMS_PER_VERTEX);
     if (!traceRay(s, ray, hit, sc.trace, false)) {
       if (s.envType !== 0 && !(meter && depth === 1)) {
-        envRadiance(s, ray.dx, ray.dy, ray.dz, rgb);
+        query[0] = ray.dx;
+        query[1] = ray.dy;
+        query[2] = ray.dz;
+        envRadiance(s, query, rgb);
         let w = 1;
-        if (!prevDelta && s.envPick > 0) w = powerHeuristic(prevPdf, s.envPick * envPdf(s, ray.dx, ray.dy, ray.dz));
+        if (!prevDelta && s.envPick > 0) {
+          envPdf(s, query);
+          w = powerHeuristic(prevPdf, s.envPick * query[3]);
+        }
         const g = s.envGroup * 3;
         out[g] += tr * rgb[0] * w;
         out[g + 1] += tg * rgb[1] * w;
@@ -101,7 +115,15 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
       if (cosGeo < 0) {
         let w = 1;
         if (!prevDelta) {
-          const pl = lights[lo + 20] * lightPdf(s, li, prevX, prevY, prevZ, dx, dy, dz, hit.t);
+          query[0] = prevX;
+          query[1] = prevY;
+          query[2] = prevZ;
+          query[3] = dx;
+          query[4] = dy;
+          query[5] = dz;
+          query[6] = hit.t;
+          lightPdf(s, li, query);
+          const pl = lights[lo + 20] * query[7];
           w = powerHeuristic(prevPdf, pl);
         }
         const g = lights[lo + 1] * 3;
@@ -149,27 +171,33 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
     const lwy = wox * bx + woy * by + woz * bz;
     const lwz = wox * nsx + woy * nsy + woz * nsz;
     const px = hit.px, py = hit.py, pz = hit.pz;
+    bs.wo[0] = lwx;
+    bs.wo[1] = lwy;
+    bs.wo[2] = lwz;
 
     // A whitted path ends at a diffuse surface, so its light sample has no BSDF sample to share with.
     const endsHere = whitted && type === MAT_DIFFUSE;
 
     // --- next-event estimation (one light or the environment)
     if (!isDeltaMaterial(mats, mo) && (s.lightCount > 0 || s.envPick > 0)) {
-      const uPick = rng.next();
-      const u1 = rng.next();
-      const u2 = rng.next();
-      const pick = pickLight(s, uPick);
+      rng.nextInto(ls.u, 0);
+      rng.nextInto(ls.u, 1);
+      rng.nextInto(ls.u, 2);
+      const pick = pickLight(s, ls);
       let ok = false;
       let pickProb = 0;
       let group = 0;
       let mis = true;
       let skip = -1;
       if (pick === -2) {
-        ok = sampleEnv(s, u1, u2, ls);
+        ok = sampleEnv(s, ls);
         pickProb = s.envPick;
         group = s.envGroup;
       } else if (pick >= 0) {
-        ok = sampleLight(s, pick, px, py, pz, u1, u2, ls);
+        ls.at[0] = px;
+        ls.at[1] = py;
+        ls.at[2] = pz;
+        ok = sampleLight(s, pick, ls);
         const lo = pick * LIGHT_STRIDE;
         pickProb = lights[lo + 20];
         group = lights[lo + 1];
@@ -182,7 +210,10 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
         const cosG = wx * ngx + wy * ngy + wz * ngz;
         // non-transmissive surfaces only receive light on the side the ray came from
         if (type === MAT_GLASS || cosG > 0) {
-          evalBsdf(mats, mo, lwx, lwy, lwz, wx * tx + wy * ty + wz * tz, wx * bx + wy * by + wz * bz, wx * nsx + wy * nsy + wz * nsz, bs);
+          bs.wi[0] = wx * tx + wy * ty + wz * tz;
+          bs.wi[1] = wx * bx + wy * by + wz * bz;
+          bs.wi[2] = wx * nsx + wy * nsy + wz * nsz;
+          evalBsdf(mats, mo, bs);
           if (bs.r > 0 || bs.g > 0 || bs.b > 0) {
             const sh = sc.shadow;
             const side = cosG > 0 ? eps : -eps;
@@ -212,10 +243,10 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
 
     // --- continue the path by sampling the BSDF
     rng.seek(CAMERA_DIMS + (depth - 1) * DIMS_PER_VERTEX + 3);
-    const u1 = rng.next();
-    const u2 = rng.next();
-    const u3 = rng.next();
-    if (!sampleBsdf(mats, mo, lwx, lwy, lwz, u1, u2, u3, bs)) return;
+    rng.nextInto(bs.u, 0);
+    rng.nextInto(bs.u, 1);
+    rng.nextInto(bs.u, 2);
+    if (!sampleBsdf(mats, mo, bs)) return;
     tr *= bs.r;
     tg *= bs.g;
     tb *= bs.b;
@@ -227,7 +258,8 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
     prevZ = pz;
     if (depth >= ROULETTE_FROM) {
       const q = Math.min(0.95, Math.max(tr, tg, tb));
-      if (rng.next() >= q) return;
+      rng.nextInto(query, 0);
+      if (query[0] >= q) return;
       tr /= q;
       tg /= q;
       tb /= q;

@@ -15,8 +15,14 @@ import type { LightSample } from "./lights";
 
 const PI = Math.PI;
 
-/** Radiance arriving from direction (dx,dy,dz) (unit, pointing away from the scene) into out[0..2]. */
-export function envRadiance(s: CompiledScene, dx: number, dy: number, dz: number, out: Float64Array): void {
+/**
+ * Radiance arriving from the unit direction dir[0..2] (pointing away from the scene) into out[0..2]; dir
+ * and out may be the same array. Directions go in through an array, not as three arguments: V8 does not
+ * inline this into the path loop and would box each double argument (and a returned double, hence envPdf's
+ * out slot).
+ */
+export function envRadiance(s: CompiledScene, dir: Float64Array, out: Float64Array): void {
+  const dx = dir[0], dy = dir[1], dz = dir[2];
   const t = s.envType;
   const P = s.envParams;
   if (t === ENV_UNIFORM) {
@@ -67,11 +73,19 @@ export function envRadiance(s: CompiledScene, dx: number, dy: number, dz: number
   out[2] = 0;
 }
 
-/** Solid-angle pdf of sampleEnv producing direction (dx,dy,dz) (not including the choice probability). */
-export function envPdf(s: CompiledScene, dx: number, dy: number, dz: number): number {
+/**
+ * Solid-angle pdf of sampleEnv producing the unit direction q[0..2] (not including the choice probability),
+ * written to q[3].
+ */
+export function envPdf(s: CompiledScene, q: Float64Array): void {
   const t = s.envType;
-  if (t === ENV_UNIFORM || t === ENV_SKY) return INV_FOUR_PI;
-  if (t !== ENV_MAP || s.envFuncMean <= 0) return 0;
+  if (t === ENV_UNIFORM || t === ENV_SKY) {
+    q[3] = INV_FOUR_PI;
+    return;
+  }
+  q[3] = 0;
+  if (t !== ENV_MAP || s.envFuncMean <= 0) return;
+  const dx = q[0], dy = q[1], dz = q[2];
   const W = s.envWidth;
   const H = s.envHeight;
   const c = s.envParams[1];
@@ -82,7 +96,7 @@ export function envPdf(s: CompiledScene, dx: number, dy: number, dz: number): nu
   const phi = Math.atan2(mx, -mz);
   const theta = Math.acos(my);
   const sinT = Math.sin(theta);
-  if (sinT <= 0) return 0;
+  if (sinT <= 0) return;
   let col = Math.floor(((phi + PI) / (2 * PI)) * W);
   let row = Math.floor((theta / PI) * H);
   if (col >= W) col = W - 1;
@@ -90,7 +104,7 @@ export function envPdf(s: CompiledScene, dx: number, dy: number, dz: number): nu
   if (row >= H) row = H - 1;
   if (row < 0) row = 0;
   const pdfUV = s.envFunc[row * W + col] / s.envFuncMean;
-  return pdfUV / (2 * PI * PI * sinT);
+  q[3] = pdfUV / (2 * PI * PI * sinT);
 }
 
 /** Index i with cdf[i] ≤ u < cdf[i+1] in a CDF of n+1 entries starting at `base` (cdf[base] = 0, cdf[base+n] = 1). */
@@ -107,8 +121,9 @@ function findInterval(cdf: Float64Array, base: number, n: number, u: number): nu
   return lo;
 }
 
-/** Sample an environment direction into ls (dist = Infinity). Returns false if nothing can be sampled. */
-export function sampleEnv(s: CompiledScene, u1: number, u2: number, ls: LightSample): boolean {
+/** Sample an environment direction into ls with the numbers ls.u[1..2] (dist = Infinity). Returns false if nothing can be sampled. */
+export function sampleEnv(s: CompiledScene, ls: LightSample): boolean {
+  const u1 = ls.u[1], u2 = ls.u[2];
   const t = s.envType;
   ls.delta = false;
   ls.dist = Infinity;
@@ -119,7 +134,7 @@ export function sampleEnv(s: CompiledScene, u1: number, u2: number, ls: LightSam
     ls.wy = tmp[1];
     ls.wz = tmp[2];
     ls.pdf = INV_FOUR_PI;
-    envRadiance(s, tmp[0], tmp[1], tmp[2], tmp);
+    envRadiance(s, tmp, tmp);
     ls.r = tmp[0];
     ls.g = tmp[1];
     ls.b = tmp[2];

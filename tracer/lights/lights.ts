@@ -7,8 +7,16 @@ import type { CompiledScene } from "../compile/types";
 import { LIGHT_DISK, LIGHT_POINT, LIGHT_RECT, LIGHT_SPHERE, LIGHT_STRIDE } from "../compile/types";
 import { basisFromNormal, concentricDisk, uniformCone, TWO_PI } from "../math/sampling";
 
-/** One light sample, reused. Direction (unit) from the shading point toward the light. */
+/**
+ * One light sample, reused: inputs (the shading point and two uniform numbers) and outputs. Inputs go in
+ * through typed arrays because V8 does not inline the samplers into the path loop and would box every
+ * double argument. Direction (unit) from the shading point toward the light.
+ */
 export class LightSample {
+  /** input: the shading point */
+  readonly at = new Float64Array(3);
+  /** input: three uniform numbers in [0, 1): u[0] chooses the light (pickLight), u[1] and u[2] the point on it */
+  readonly u = new Float64Array(3);
   wx = 0;
   wy = 0;
   wz = 0;
@@ -25,8 +33,9 @@ export class LightSample {
   readonly basis = new Float64Array(6);
 }
 
-/** Choose a light (or the environment, returned as -2) with the stored probabilities; -1 if nothing to sample. */
-export function pickLight(s: CompiledScene, u: number): number {
+/** Choose a light (or the environment, returned as -2) with the stored probabilities and ls.u[0]; -1 if nothing to sample. */
+export function pickLight(s: CompiledScene, ls: LightSample): number {
+  const u = ls.u[0];
   const n = s.lightCount;
   const cdf = s.lightCdf;
   if (n > 0 && u < cdf[n]) {
@@ -47,17 +56,10 @@ export function pickLight(s: CompiledScene, u: number): number {
   return -1;
 }
 
-/** Sample light `li` as seen from point (px, py, pz). Returns false if the sample carries no light. */
-export function sampleLight(
-  s: CompiledScene,
-  li: number,
-  px: number,
-  py: number,
-  pz: number,
-  u1: number,
-  u2: number,
-  ls: LightSample,
-): boolean {
+/** Sample light `li` as seen from point ls.at with the numbers ls.u[1..2]. Returns false if the sample carries no light. */
+export function sampleLight(s: CompiledScene, li: number, ls: LightSample): boolean {
+  const px = ls.at[0], py = ls.at[1], pz = ls.at[2];
+  const u1 = ls.u[1], u2 = ls.u[2];
   const L = s.lights;
   const o = li * LIGHT_STRIDE;
   const kind = L[o];
@@ -147,36 +149,28 @@ export function sampleLight(
 }
 
 /**
- * Solid-angle pdf with which sampleLight would produce the direction (dx,dy,dz) from (px,py,pz) that hits
- * light li at distance t (for MIS weights of BSDF-sampled hits).
+ * Solid-angle pdf with which sampleLight would produce the unit direction q[3..5] from the point q[0..2]
+ * that hits light li at distance q[6] (for MIS weights of BSDF-sampled hits); written to q[7]. In and out
+ * through one array for the same reason as LightSample's inputs (a returned double is boxed too).
  */
-export function lightPdf(
-  s: CompiledScene,
-  li: number,
-  px: number,
-  py: number,
-  pz: number,
-  dx: number,
-  dy: number,
-  dz: number,
-  t: number,
-): number {
+export function lightPdf(s: CompiledScene, li: number, q: Float64Array): void {
+  const px = q[0], py = q[1], pz = q[2], dx = q[3], dy = q[4], dz = q[5], t = q[6];
   const L = s.lights;
   const o = li * LIGHT_STRIDE;
   const kind = L[o];
+  let pdf = 0;
   if (kind === LIGHT_SPHERE) {
     const cx = L[o + 7] - px, cy = L[o + 8] - py, cz = L[o + 9] - pz;
     const r = L[o + 19];
     const dc2 = cx * cx + cy * cy + cz * cz;
-    if (dc2 <= r * r) return 0;
-    const sin2 = (r * r) / dc2;
-    const cosMax = Math.sqrt(Math.max(0, 1 - sin2));
-    return 1 / (TWO_PI * (sin2 / (1 + cosMax)));
-  }
-  if (kind === LIGHT_RECT || kind === LIGHT_DISK) {
+    if (dc2 > r * r) {
+      const sin2 = (r * r) / dc2;
+      const cosMax = Math.sqrt(Math.max(0, 1 - sin2));
+      pdf = 1 / (TWO_PI * (sin2 / (1 + cosMax)));
+    }
+  } else if (kind === LIGHT_RECT || kind === LIGHT_DISK) {
     const cosL = Math.abs(dx * L[o + 16] + dy * L[o + 17] + dz * L[o + 18]);
-    if (cosL === 0) return 0;
-    return (t * t) / (L[o + 6] * cosL);
+    if (cosL !== 0) pdf = (t * t) / (L[o + 6] * cosL);
   }
-  return 0;
+  q[7] = pdf;
 }

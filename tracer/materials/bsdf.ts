@@ -17,8 +17,18 @@ export const MAT_DIFFUSE = 0;
 export const MAT_METAL = 1;
 export const MAT_GLASS = 2;
 
-/** Output of evalBsdf / sampleBsdf, reused for every call. */
+/**
+ * Input and output of evalBsdf / sampleBsdf, reused for every call. The directions and random numbers go
+ * in through typed arrays rather than as arguments: V8 does not inline these functions into the path
+ * loop, and every double passed to (or returned from) a call it does not inline is boxed on the heap.
+ */
 export class BsdfScratch {
+  /** input: outgoing direction wo (local frame) */
+  readonly wo = new Float64Array(3);
+  /** input of evalBsdf: incident direction wi (local frame) */
+  readonly wi = new Float64Array(3);
+  /** input of sampleBsdf: three uniform numbers in [0, 1) (direction u1, u2; lobe choice u3) */
+  readonly u = new Float64Array(3);
   /** sampled incident direction (local) */
   wx = 0;
   wy = 0;
@@ -47,55 +57,62 @@ export function hasInterior(mats: Float64Array, off: number): boolean {
   return mats[off] === MAT_GLASS;
 }
 
-/** Evaluate f·|cos wi| and the sampling pdf of wi; zero for delta lobes. */
-export function evalBsdf(
-  mats: Float64Array,
-  off: number,
-  wox: number,
-  woy: number,
-  woz: number,
-  wix: number,
-  wiy: number,
-  wiz: number,
-  s: BsdfScratch,
-): void {
+/**
+ * Evaluate f·|cos wi| and the sampling pdf of wi = s.wi for wo = s.wo; zero for delta lobes. One function
+ * per material: V8 inlines the small GGX and Fresnel helpers into each of these, where one function for
+ * all three ran out of its inlining budget and boxed the doubles of the calls it left (measured: up to 400
+ * bytes per sample).
+ */
+export function evalBsdf(mats: Float64Array, off: number, s: BsdfScratch): void {
   s.r = 0;
   s.g = 0;
   s.b = 0;
   s.pdf = 0;
   const type = mats[off];
-  if (type === MAT_DIFFUSE) {
-    if (woz <= 0 || wiz <= 0) return;
-    const k = wiz * INV_PI;
-    s.r = mats[off + 1] * k;
-    s.g = mats[off + 2] * k;
-    s.b = mats[off + 3] * k;
-    s.pdf = k;
-    return;
-  }
-  if (type === MAT_METAL) {
-    const alpha = mats[off + 4];
-    if (alpha < MIN_ALPHA || woz <= 0 || wiz <= 0) return;
-    let hx = wox + wix;
-    let hy = woy + wiy;
-    let hz = woz + wiz;
-    const hl = Math.sqrt(hx * hx + hy * hy + hz * hz);
-    if (hl === 0) return;
-    hx /= hl;
-    hy /= hl;
-    hz /= hl;
-    const oh = wox * hx + woy * hy + woz * hz;
-    if (oh <= 0) return;
-    const d = ggxD(hz, alpha);
-    const g = ggxG2(woz, wiz, alpha);
-    const k = (d * g) / (4 * woz); // f·cos wi without F: D G / (4 cos o cos i) · cos i
-    s.r = schlick(mats[off + 1], oh) * k;
-    s.g = schlick(mats[off + 2], oh) * k;
-    s.b = schlick(mats[off + 3], oh) * k;
-    s.pdf = (d * hz) / (4 * oh);
-    return;
-  }
-  // glass
+  if (type === MAT_DIFFUSE) evalDiffuse(mats, off, s);
+  else if (type === MAT_METAL) evalMetal(mats, off, s);
+  else evalGlass(mats, off, s);
+}
+
+function evalDiffuse(mats: Float64Array, off: number, s: BsdfScratch): void {
+  const woz = s.wo[2], wiz = s.wi[2];
+  if (woz <= 0 || wiz <= 0) return;
+  const k = wiz * INV_PI;
+  s.r = mats[off + 1] * k;
+  s.g = mats[off + 2] * k;
+  s.b = mats[off + 3] * k;
+  s.pdf = k;
+}
+
+function evalMetal(mats: Float64Array, off: number, s: BsdfScratch): void {
+  const wo = s.wo, wi = s.wi;
+  const wox = wo[0], woy = wo[1], woz = wo[2];
+  const wix = wi[0], wiy = wi[1], wiz = wi[2];
+  const alpha = mats[off + 4];
+  if (alpha < MIN_ALPHA || woz <= 0 || wiz <= 0) return;
+  let hx = wox + wix;
+  let hy = woy + wiy;
+  let hz = woz + wiz;
+  const hl = Math.sqrt(hx * hx + hy * hy + hz * hz);
+  if (hl === 0) return;
+  hx /= hl;
+  hy /= hl;
+  hz /= hl;
+  const oh = wox * hx + woy * hy + woz * hz;
+  if (oh <= 0) return;
+  const d = ggxD(hz, alpha);
+  const g = ggxG2(woz, wiz, alpha);
+  const k = (d * g) / (4 * woz); // f·cos wi without F: D G / (4 cos o cos i) · cos i
+  s.r = schlick(mats[off + 1], oh) * k;
+  s.g = schlick(mats[off + 2], oh) * k;
+  s.b = schlick(mats[off + 3], oh) * k;
+  s.pdf = (d * hz) / (4 * oh);
+}
+
+function evalGlass(mats: Float64Array, off: number, s: BsdfScratch): void {
+  const wo = s.wo, wi = s.wi;
+  const wox = wo[0], woy = wo[1], woz = wo[2];
+  const wix = wi[0], wiy = wi[1], wiz = wi[2];
   const alpha = mats[off + 2];
   if (alpha < MIN_ALPHA || woz === 0 || wiz === 0) return;
   const eta = mats[off + 1];
@@ -137,96 +154,107 @@ export function evalBsdf(
   s.b = fc;
 }
 
-/** Sample wi; returns false if the sample carries no energy. Sets weight = f·|cos|/pdf, pdf, delta. */
-export function sampleBsdf(
-  mats: Float64Array,
-  off: number,
-  wox: number,
-  woy: number,
-  woz: number,
-  u1: number,
-  u2: number,
-  u3: number,
-  s: BsdfScratch,
-): boolean {
+/**
+ * Sample wi for wo = s.wo with the numbers s.u; returns false if the sample carries no energy. Sets
+ * weight = f·|cos|/pdf, pdf, delta. One function per lobe, for the same reason as evalBsdf.
+ */
+export function sampleBsdf(mats: Float64Array, off: number, s: BsdfScratch): boolean {
   const type = mats[off];
+  if (type === MAT_DIFFUSE) return sampleDiffuse(mats, off, s);
+  if (type === MAT_METAL) return mats[off + 4] < MIN_ALPHA ? sampleMirror(mats, off, s) : sampleRoughMetal(mats, off, s);
+  return mats[off + 2] < MIN_ALPHA ? sampleSmoothGlass(mats, off, s) : sampleRoughGlass(mats, off, s);
+}
+
+function sampleDiffuse(mats: Float64Array, off: number, s: BsdfScratch): boolean {
+  const woz = s.wo[2], u1 = s.u[0], u2 = s.u[1];
   const v = s.v;
-  if (type === MAT_DIFFUSE) {
-    if (woz <= 0) return false;
-    cosineHemisphere(u1, u2, v);
-    if (v[2] <= 0) return false;
-    s.wx = v[0];
-    s.wy = v[1];
-    s.wz = v[2];
-    s.r = mats[off + 1];
-    s.g = mats[off + 2];
-    s.b = mats[off + 3];
-    s.pdf = v[2] * INV_PI;
-    s.delta = false;
+  if (woz <= 0) return false;
+  cosineHemisphere(u1, u2, v);
+  if (v[2] <= 0) return false;
+  s.wx = v[0];
+  s.wy = v[1];
+  s.wz = v[2];
+  s.r = mats[off + 1];
+  s.g = mats[off + 2];
+  s.b = mats[off + 3];
+  s.pdf = v[2] * INV_PI;
+  s.delta = false;
+  return true;
+}
+
+function sampleMirror(mats: Float64Array, off: number, s: BsdfScratch): boolean {
+  const wox = s.wo[0], woy = s.wo[1], woz = s.wo[2];
+  if (woz <= 0) return false;
+  s.wx = -wox;
+  s.wy = -woy;
+  s.wz = woz;
+  s.r = schlick(mats[off + 1], woz);
+  s.g = schlick(mats[off + 2], woz);
+  s.b = schlick(mats[off + 3], woz);
+  s.pdf = 1;
+  s.delta = true;
+  return true;
+}
+
+function sampleRoughMetal(mats: Float64Array, off: number, s: BsdfScratch): boolean {
+  const wox = s.wo[0], woy = s.wo[1], woz = s.wo[2], u1 = s.u[0], u2 = s.u[1];
+  if (woz <= 0) return false;
+  const alpha = mats[off + 4];
+  const m = s.m;
+  ggxSampleNormal(u1, u2, alpha, m);
+  const om = wox * m[0] + woy * m[1] + woz * m[2];
+  if (om <= 0) return false;
+  const wix = 2 * om * m[0] - wox;
+  const wiy = 2 * om * m[1] - woy;
+  const wiz = 2 * om * m[2] - woz;
+  if (wiz <= 0) return false;
+  const G = ggxG2(woz, wiz, alpha);
+  const w = (G * om) / (woz * m[2]);
+  s.wx = wix;
+  s.wy = wiy;
+  s.wz = wiz;
+  s.r = schlick(mats[off + 1], om) * w;
+  s.g = schlick(mats[off + 2], om) * w;
+  s.b = schlick(mats[off + 3], om) * w;
+  s.pdf = (ggxD(m[2], alpha) * m[2]) / (4 * om);
+  s.delta = false;
+  return true;
+}
+
+function sampleSmoothGlass(mats: Float64Array, off: number, s: BsdfScratch): boolean {
+  const wox = s.wo[0], woy = s.wo[1], woz = s.wo[2], u3 = s.u[2];
+  const v = s.v;
+  const eta = mats[off + 1];
+  const F = fresnelDielectric(woz, eta);
+  s.delta = true;
+  if (u3 < F) {
+    s.wx = -wox;
+    s.wy = -woy;
+    s.wz = woz;
+    s.r = 1;
+    s.g = 1;
+    s.b = 1;
+    s.pdf = F;
     return true;
   }
-  if (type === MAT_METAL) {
-    if (woz <= 0) return false;
-    const alpha = mats[off + 4];
-    if (alpha < MIN_ALPHA) {
-      s.wx = -wox;
-      s.wy = -woy;
-      s.wz = woz;
-      s.r = schlick(mats[off + 1], woz);
-      s.g = schlick(mats[off + 2], woz);
-      s.b = schlick(mats[off + 3], woz);
-      s.pdf = 1;
-      s.delta = true;
-      return true;
-    }
-    const m = s.m;
-    ggxSampleNormal(u1, u2, alpha, m);
-    const om = wox * m[0] + woy * m[1] + woz * m[2];
-    if (om <= 0) return false;
-    const wix = 2 * om * m[0] - wox;
-    const wiy = 2 * om * m[1] - woy;
-    const wiz = 2 * om * m[2] - woz;
-    if (wiz <= 0) return false;
-    const G = ggxG2(woz, wiz, alpha);
-    const w = (G * om) / (woz * m[2]);
-    s.wx = wix;
-    s.wy = wiy;
-    s.wz = wiz;
-    s.r = schlick(mats[off + 1], om) * w;
-    s.g = schlick(mats[off + 2], om) * w;
-    s.b = schlick(mats[off + 3], om) * w;
-    s.pdf = (ggxD(m[2], alpha) * m[2]) / (4 * om);
-    s.delta = false;
-    return true;
-  }
-  // glass
+  const etap = refract(wox, woy, woz, 0, 0, 1, eta, v);
+  if (etap === 0) return false;
+  s.wx = v[0];
+  s.wy = v[1];
+  s.wz = v[2];
+  const k = 1 / (etap * etap);
+  s.r = k;
+  s.g = k;
+  s.b = k;
+  s.pdf = 1 - F;
+  return true;
+}
+
+function sampleRoughGlass(mats: Float64Array, off: number, s: BsdfScratch): boolean {
+  const wox = s.wo[0], woy = s.wo[1], woz = s.wo[2], u1 = s.u[0], u2 = s.u[1], u3 = s.u[2];
+  const v = s.v;
   const eta = mats[off + 1];
   const alpha = mats[off + 2];
-  if (alpha < MIN_ALPHA) {
-    const F = fresnelDielectric(woz, eta);
-    s.delta = true;
-    if (u3 < F) {
-      s.wx = -wox;
-      s.wy = -woy;
-      s.wz = woz;
-      s.r = 1;
-      s.g = 1;
-      s.b = 1;
-      s.pdf = F;
-      return true;
-    }
-    const etap = refract(wox, woy, woz, 0, 0, 1, eta, v);
-    if (etap === 0) return false;
-    s.wx = v[0];
-    s.wy = v[1];
-    s.wz = v[2];
-    const k = 1 / (etap * etap);
-    s.r = k;
-    s.g = k;
-    s.b = k;
-    s.pdf = 1 - F;
-    return true;
-  }
   if (woz === 0) return false;
   const m = s.m;
   ggxSampleNormal(u1, u2, alpha, m);

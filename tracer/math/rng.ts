@@ -55,17 +55,19 @@ export function pcg4d(a: number, b: number, c: number, d: number, out: Uint32Arr
  * returns dimension d in [0, 1) and advances. Reused for every sample (no allocation per sample).
  */
 export class SampleStream {
-  seed = 0;
-  pixel = 0;
-  pass = 0;
+  // Kept as int32 (`| 0`): pcg4d reads its inputs as 32-bit words either way, and an int32 is never boxed
+  // when passed to a call V8 does not inline, where a uint32 ≥ 2^31 would be.
+  private seed = 0;
+  private pixel = 0;
+  private pass = 0;
   private dim = 0;
   private block = -1;
   private readonly words = new Uint32Array(4);
 
   start(seed: number, pixel: number, pass: number): void {
-    this.seed = seed >>> 0;
-    this.pixel = pixel >>> 0;
-    this.pass = pass >>> 0;
+    this.seed = seed | 0;
+    this.pixel = pixel | 0;
+    this.pass = pass | 0;
     this.dim = 0;
     this.block = -1;
   }
@@ -84,9 +86,23 @@ export class SampleStream {
     return this.words[d & 3] * TWO_NEG_32;
   }
 
+  /**
+   * Writes dimension d to out[at] and advances: the form the render loop uses, since a double returned
+   * from a call V8 does not inline is boxed on the heap (next() is for tests and tools).
+   */
+  nextInto(out: Float64Array, at: number): void {
+    const d = this.dim++;
+    const b = d >>> 2;
+    if (b !== this.block) {
+      pcg4d(this.pixel, this.pass, b, this.seed, this.words);
+      this.block = b;
+    }
+    out[at] = this.words[d & 3] * TWO_NEG_32;
+  }
+
   /** Four raw uint32 words of the reserved stream `salt` for this (pixel, pass); does not move the stream. */
   reserved(salt: number, out: Uint32Array): void {
-    pcg4d(this.pixel, this.pass, 0, (this.seed ^ salt) >>> 0, out);
+    pcg4d(this.pixel, this.pass, 0, this.seed ^ salt, out);
   }
 }
 
@@ -135,6 +151,11 @@ export function permute(i: number, l: number, p: number): number {
 }
 
 export function randfloat(i: number, p: number): number {
+  return (randbits(i, p) >>> 0) * TWO_NEG_32;
+}
+
+/** The 32 hashed bits behind randfloat, as an int32 (never boxed when returned from a call that is not inlined). */
+function randbits(i: number, p: number): number {
   i = (i ^ p) >>> 0;
   i ^= i >>> 17;
   i ^= i >>> 10;
@@ -145,7 +166,7 @@ export function randfloat(i: number, p: number): number {
   i ^= 0xdf6e307f;
   i ^= i >>> 17;
   i = Math.imul(i, 1 | (p >>> 18));
-  return (i >>> 0) * TWO_NEG_32;
+  return i | 0;
 }
 
 /** Grid of a pattern of n samples: m columns × k rows with m·k ≥ n. */
@@ -162,15 +183,16 @@ export function cmjGrid(n: number): { m: number; k: number } {
  * The multipliers deriving sub-pattern ids are arbitrary odd constants (any keeps `permute` bijective).
  */
 export function cmj(s: number, m: number, k: number, p: number, out: Float64Array): void {
-  s = permute(s, m * k, Math.imul(p, 0x51633e2d) >>> 0);
+  // Hash inputs as int32 (`| 0`): the hashes read 32-bit words either way (see SampleStream).
+  s = permute(s, m * k, Math.imul(p, 0x51633e2d) | 0);
   const col = s % m;
   const row = (s - col) / m;
   // the sub-column of cell (col, row) is a permutation over the rows of that column, and the sub-row a
   // permutation over the columns of that row: every x strip and every y strip of width 1/(m·k) holds one sample
-  const subRow = permute(col, m, (Math.imul(p, 0x68bc21eb) ^ Math.imul(row + 1, 0x9e3779b9)) >>> 0);
-  const subCol = permute(row, k, (Math.imul(p, 0x02e5be93) ^ Math.imul(col + 1, 0x7feb352d)) >>> 0);
-  const jx = randfloat(s, Math.imul(p, 0x967a889b) >>> 0);
-  const jy = randfloat(s, Math.imul(p, 0x368cc8b7) >>> 0);
+  const subRow = permute(col, m, Math.imul(p, 0x68bc21eb) ^ Math.imul(row + 1, 0x9e3779b9));
+  const subCol = permute(row, k, Math.imul(p, 0x02e5be93) ^ Math.imul(col + 1, 0x7feb352d));
+  const jx = (randbits(s, Math.imul(p, 0x967a889b)) >>> 0) * TWO_NEG_32;
+  const jy = (randbits(s, Math.imul(p, 0x368cc8b7)) >>> 0) * TWO_NEG_32;
   let x = (col + (subCol + jx) / k) / m;
   let y = (row + (subRow + jy) / m) / k;
   // guard the open interval against rounding up to exactly 1

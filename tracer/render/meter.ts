@@ -30,7 +30,7 @@ export function measureIrradiance(compiled: CompiledScene, px: number, py: numbe
   const cx = Math.floor(px) + 0.5;
   const cy = Math.floor(py) + 0.5;
   // pixel centre through the lens centre at shutter open
-  generateRay(compiled.camera, W, H, cx, cy, 0.5, 0.5, 0, lens, sc.ray);
+  generateRay(compiled.camera, W, H, new Float64Array([cx, cy, 0.5, 0.5, 0]), lens, sc.ray);
   const probe = sc.ray;
   const ox = probe.ox, oy = probe.oy, oz = probe.oz, dx = probe.dx, dy = probe.dy, dz = probe.dz, time = probe.time;
   const none: IrradianceReading = { hit: false, position: [0, 0, 0], normal: [0, 0, 0], irradiance: [0, 0, 0], stdError: [0, 0, 0] };

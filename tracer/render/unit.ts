@@ -5,7 +5,7 @@
  */
 import type { CompiledScene } from "../compile/types";
 import { SampleStream, pcg4d, cmj, cmjGrid, SALT_PIXEL_PATTERN, SALT_QUANTISE } from "../math/rng";
-import { generateRay } from "../camera";
+import { CAMERA_SAMPLE_LENGTH, generateRay } from "../camera";
 import { PathScratch, radiance } from "../integrators/path";
 import { quantiseInto, QUANT_MAX_RADIANCE, type RenderUnit, type UnitResult } from "../film/accumulate";
 
@@ -19,6 +19,8 @@ export type RenderScratch = {
   words: Uint32Array;
   jitter: Float64Array;
   lens: Float64Array;
+  /** film position, lens and shutter numbers of the current sample (generateRay's input) */
+  cameraSample: Float64Array;
 };
 
 export function createRenderScratch(compiled: CompiledScene): RenderScratch {
@@ -29,6 +31,7 @@ export function createRenderScratch(compiled: CompiledScene): RenderScratch {
     words: new Uint32Array(4),
     jitter: new Float64Array(2),
     lens: new Float64Array(2),
+    cameraSample: new Float64Array(CAMERA_SAMPLE_LENGTH),
   };
 }
 
@@ -52,9 +55,9 @@ export function pixelJitter(compiled: CompiledScene, pixel: number, pass: number
   const n = compiled.spp;
   const round = Math.floor(pass / n);
   const s = pass - round * n;
-  pcg4d(pixel >>> 0, round >>> 0, 0, (compiled.seed ^ SALT_PIXEL_PATTERN) >>> 0, words);
+  pcg4d(pixel | 0, round | 0, 0, compiled.seed ^ SALT_PIXEL_PATTERN, words);
   const { m, k } = cmjGrid(n);
-  cmj(s, m, k, words[0], out);
+  cmj(s, m, k, words[0] | 0, out);
 }
 
 export function renderUnit(compiled: CompiledScene, unit: RenderUnit, scratch?: RenderScratch): UnitResult {
@@ -74,6 +77,10 @@ export function renderUnit(compiled: CompiledScene, unit: RenderUnit, scratch?: 
   const H = compiled.height;
   const cam = compiled.camera;
   const ray = sc.path.ray;
+  const cs = sc.cameraSample;
+  // Hash inputs go in as int32 (`| 0`), not uint32 (`>>> 0`): the hashes read them as 32-bit words either
+  // way, and an int32 is never boxed when passed to a call V8 does not inline.
+  const patternSeed = compiled.seed ^ SALT_PIXEL_PATTERN;
   const limit = compiled.clamp > 0 ? Math.min(compiled.clamp, QUANT_MAX_RADIANCE) : QUANT_MAX_RADIANCE;
   const { m, k } = cmjGrid(compiled.spp);
   for (let pass = passStart; pass < passEnd; pass++) {
@@ -82,13 +89,15 @@ export function renderUnit(compiled: CompiledScene, unit: RenderUnit, scratch?: 
     for (let y = y0; y < y1; y++) {
       for (let x = x0; x < x1; x++) {
         const pixel = y * W + x;
-        pcg4d(pixel >>> 0, round >>> 0, 0, (compiled.seed ^ SALT_PIXEL_PATTERN) >>> 0, words);
-        cmj(s, m, k, words[0], jitter);
+        pcg4d(pixel, round | 0, 0, patternSeed, words);
+        cmj(s, m, k, words[0] | 0, jitter);
         rng.start(compiled.seed, pixel, pass);
-        const u1 = rng.next();
-        const u2 = rng.next();
-        const ut = rng.next();
-        generateRay(cam, W, H, x + jitter[0], y + jitter[1], u1, u2, ut, sc.lens, ray);
+        cs[0] = x + jitter[0];
+        cs[1] = y + jitter[1];
+        rng.nextInto(cs, 2);
+        rng.nextInto(cs, 3);
+        rng.nextInto(cs, 4);
+        generateRay(cam, W, H, cs, sc.lens, ray);
         radiance(compiled, sc.path, rng, false);
         clampSample(groups, G, limit);
         rng.reserved(SALT_QUANTISE, words);

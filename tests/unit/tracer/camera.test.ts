@@ -1,5 +1,8 @@
 import { describe, expect, it } from "vitest";
 import { compileCamera, generateRay } from "../../../tracer/camera";
+
+/** generateRay's input record: film x, film y, lens u, lens v, shutter u. */
+const filmSample = (fx: number, fy: number, u1: number, u2: number, ut: number) => new Float64Array([fx, fy, u1, u2, ut]);
 import { Ray } from "../../../tracer/geometry/intersect";
 import { CameraSchema } from "../../../tracer/scene/schema";
 import { compiled, renderAll, regionStats } from "./render-helpers";
@@ -11,15 +14,15 @@ describe("pinhole camera", () => {
     const c = compileCamera(cam({}), 200, 100);
     const ray = new Ray();
     const lens = new Float64Array(2);
-    generateRay(c, 200, 100, 0, 0, 0.5, 0.5, 0, lens, ray);
+    generateRay(c, 200, 100, filmSample(0, 0, 0.5, 0.5, 0), lens, ray);
     expect(ray.dx).toBeLessThan(0); // left
     expect(ray.dy).toBeGreaterThan(0); // top
     expect(ray.dz).toBeLessThan(0); // forward is −Z
     // top edge centre: angle to the forward axis is fovY/2 = 30°
-    generateRay(c, 200, 100, 100, 0, 0.5, 0.5, 0, lens, ray);
+    generateRay(c, 200, 100, filmSample(100, 0, 0.5, 0.5, 0), lens, ray);
     expect((Math.atan2(ray.dy, -ray.dz) * 180) / Math.PI).toBeCloseTo(30, 9);
     // right edge centre: horizontal half-angle from tan(h/2) = aspect · tan(fovY/2)
-    generateRay(c, 200, 100, 200, 50, 0.5, 0.5, 0, lens, ray);
+    generateRay(c, 200, 100, filmSample(200, 50, 0.5, 0.5, 0), lens, ray);
     expect(Math.atan2(ray.dx, -ray.dz)).toBeCloseTo(Math.atan(2 * Math.tan(Math.PI / 6)), 9);
     expect(Math.hypot(ray.dx, ray.dy, ray.dz)).toBeCloseTo(1, 12);
   });
@@ -27,9 +30,9 @@ describe("pinhole camera", () => {
     const c = compileCamera(cam({ shutter: [0.25, 0.75] }), 10, 10);
     const ray = new Ray();
     const lens = new Float64Array(2);
-    generateRay(c, 10, 10, 5, 5, 0.5, 0.5, 0, lens, ray);
+    generateRay(c, 10, 10, filmSample(5, 5, 0.5, 0.5, 0), lens, ray);
     expect(ray.time).toBe(0.25);
-    generateRay(c, 10, 10, 5, 5, 0.5, 0.5, 0.5, lens, ray);
+    generateRay(c, 10, 10, filmSample(5, 5, 0.5, 0.5, 0.5), lens, ray);
     expect(ray.time).toBe(0.5);
   });
 });
@@ -58,7 +61,7 @@ describe("thin-lens camera vs the circle-of-confusion formula", () => {
     // Ray through film x = 50 + r (row centre) and the lens's left edge (concentric map of (0, 0.5) = (−1, 0)):
     // it crosses the axis at distance s_o exactly when r is the blur radius.
     const lateralAtSo = (r: number) => {
-      generateRay(k, H, H, 50 + r, 50, 0, 0.5, 0, lens, ray);
+      generateRay(k, H, H, filmSample(50 + r, 50, 0, 0.5, 0), lens, ray);
       const t = (so - ray.oz * -1) / -ray.dz; // forward is −Z, eye at the origin
       return ray.ox + t * ray.dx;
     };
@@ -71,7 +74,7 @@ describe("thin-lens camera vs the circle-of-confusion formula", () => {
     // a point in the focus plane: every lens sample through one film position meets at the same point
     const pts: number[] = [];
     for (const [u1, u2] of [[0.1, 0.9], [0.5, 0.5], [0.9, 0.2], [0, 0.5]]) {
-      generateRay(k, H, H, 37.5, 61.25, u1, u2, 0, lens, ray);
+      generateRay(k, H, H, filmSample(37.5, 61.25, u1, u2, 0), lens, ray);
       const t = (sf - -ray.oz) / -ray.dz;
       pts.push(ray.ox + t * ray.dx, ray.oy + t * ray.dy);
     }

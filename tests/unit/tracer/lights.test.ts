@@ -7,6 +7,15 @@ import { envPdf, envRadiance, sampleEnv } from "../../../tracer/lights/environme
 import { LightSample, pickLight } from "../../../tracer/lights/lights";
 import { LIGHT_STRIDE } from "../../../tracer/compile/types";
 import { SampleStream } from "../../../tracer/math/rng";
+import type { CompiledScene } from "../../../tracer/compile/types";
+
+/** envRadiance / envPdf take the direction in an array (the path loop's calling convention). */
+const radianceFrom = (c: CompiledScene, dx: number, dy: number, dz: number, out: Float64Array): void => envRadiance(c, new Float64Array([dx, dy, dz]), out);
+const pdfToward = (c: CompiledScene, dx: number, dy: number, dz: number): number => {
+  const q = new Float64Array([dx, dy, dz, 0]);
+  envPdf(c, q);
+  return q[3];
+};
 
 // Configuration (view) factors: a Lambertian emitter of radiance L gives irradiance E = π·L·F and a
 // Lambertian receiver of albedo ρ reflects Lo = ρ·L·F (REFERENCE_CHECKS item 5; J. R. Howell, "A Catalog of
@@ -219,7 +228,7 @@ describe("equirectangular environment map", () => {
       const th = ((i + 0.5) / nT) * Math.PI;
       for (let j = 0; j < nP; j++) {
         const ph = ((j + 0.5) / nP) * 2 * Math.PI;
-        sum += envPdf(c, Math.sin(th) * Math.cos(ph), Math.cos(th), Math.sin(th) * Math.sin(ph)) * Math.sin(th);
+        sum += pdfToward(c, Math.sin(th) * Math.cos(ph), Math.cos(th), Math.sin(th) * Math.sin(ph)) * Math.sin(th);
       }
     }
     expect(sum * (Math.PI / nT) * ((2 * Math.PI) / nP)).toBeCloseTo(1, 2);
@@ -228,9 +237,11 @@ describe("equirectangular environment map", () => {
     const rng = new SampleStream();
     for (let k = 0; k < 500; k++) {
       rng.start(1, k, 0);
-      expect(sampleEnv(c, rng.next(), rng.next(), ls)).toBe(true);
-      expect(ls.pdf / envPdf(c, ls.wx, ls.wy, ls.wz)).toBeCloseTo(1, 4);
-      envRadiance(c, ls.wx, ls.wy, ls.wz, rgb);
+      ls.u[1] = rng.next();
+      ls.u[2] = rng.next();
+      expect(sampleEnv(c, ls)).toBe(true);
+      expect(ls.pdf / pdfToward(c, ls.wx, ls.wy, ls.wz)).toBeCloseTo(1, 4);
+      radianceFrom(c, ls.wx, ls.wy, ls.wz, rgb);
       expect(rgb[0]).toBeCloseTo(ls.r, 5);
     }
   });
@@ -247,7 +258,7 @@ describe("equirectangular environment map", () => {
         const th = ((i + 0.5) / nT) * (Math.PI / 2);
         for (let j = 0; j < nP; j++) {
           const ph = ((j + 0.5) / nP) * 2 * Math.PI;
-          envRadiance(c, Math.sin(th) * Math.cos(ph), Math.cos(th), Math.sin(th) * Math.sin(ph), rgb);
+          radianceFrom(c, Math.sin(th) * Math.cos(ph), Math.cos(th), Math.sin(th) * Math.sin(ph), rgb);
           E += (0.2126 * rgb[0] + 0.7152 * rgb[1] + 0.0722 * rgb[2]) * Math.cos(th) * Math.sin(th);
         }
       }
@@ -260,19 +271,19 @@ describe("equirectangular environment map", () => {
   it("orientation: row 0 is straight up and the map's horizontal centre looks along −Z", () => {
     const c = mapScene(0, 1);
     const rgb = new Float64Array(3);
-    envRadiance(c, 0, 1, 0, rgb);
+    radianceFrom(c, 0, 1, 0, rgb);
     expect(rgb[1]).toBeCloseTo(0.3 * 0.5, 2); // top row: not the bright patch (RGBE keeps ~1% precision)
     // centre of the bright patch: rows 3..5 → θ ≈ 4.5/16·π, columns 10..13 → u ≈ 12/32, φ = 2πu − π
     const th = (4.5 / 16) * Math.PI;
     const ph = (12 / 32) * 2 * Math.PI - Math.PI;
-    envRadiance(c, Math.sin(th) * Math.sin(ph), Math.cos(th), -Math.sin(th) * Math.cos(ph), rgb);
+    radianceFrom(c, Math.sin(th) * Math.sin(ph), Math.cos(th), -Math.sin(th) * Math.cos(ph), rgb);
     expect(rgb[0]).toBeCloseTo(20, 6);
     // rotating the map by +90° about +Y carries that direction along
     const r = mapScene(90, 1);
     const dx = Math.sin(th) * Math.sin(ph);
     const dz = -Math.sin(th) * Math.cos(ph);
     const a = Math.PI / 2;
-    envRadiance(r, Math.cos(a) * dx + Math.sin(a) * dz, Math.cos(th), -Math.sin(a) * dx + Math.cos(a) * dz, rgb);
+    radianceFrom(r, Math.cos(a) * dx + Math.sin(a) * dz, Math.cos(th), -Math.sin(a) * dx + Math.cos(a) * dz, rgb);
     expect(rgb[0]).toBeCloseTo(20, 6);
   });
 });
@@ -294,9 +305,11 @@ describe("choosing a light for next-event estimation", () => {
     // brighter lights are chosen more often
     expect(probs[39]).toBeGreaterThan(probs[0]);
     const counts = new Array(41).fill(0);
+    const pick = new LightSample();
     const n = 200000;
     for (let i = 0; i < n; i++) {
-      const k = pickLight(c, (i + 0.5) / n);
+      pick.u[0] = (i + 0.5) / n;
+      const k = pickLight(c, pick);
       counts[k === -2 ? 40 : k]++;
     }
     // stratified u: each count is within 1 of n·p

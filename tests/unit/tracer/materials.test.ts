@@ -2,6 +2,18 @@ import { describe, expect, it } from "vitest";
 import { fresnelDielectric, fresnelDielectricSP, refract, schlick } from "../../../tracer/materials/fresnel";
 import { ggxD, ggxG1, ggxG2, ggxSampleNormal } from "../../../tracer/materials/ggx";
 import { BsdfScratch, MATERIAL_STRIDE, MAT_DIFFUSE, MAT_GLASS, MAT_METAL, evalBsdf, sampleBsdf } from "../../../tracer/materials/bsdf";
+
+/** sampleBsdf / evalBsdf read wo, wi and the random numbers from the scratch (the path loop's calling convention). */
+function sampleFrom(mats: Float64Array, off: number, wox: number, woy: number, woz: number, u1: number, u2: number, u3: number, s: BsdfScratch): boolean {
+  s.wo.set([wox, woy, woz]);
+  s.u.set([u1, u2, u3]);
+  return sampleBsdf(mats, off, s);
+}
+function evalFor(mats: Float64Array, off: number, wox: number, woy: number, woz: number, wix: number, wiy: number, wiz: number, s: BsdfScratch): void {
+  s.wo.set([wox, woy, woz]);
+  s.wi.set([wix, wiy, wiz]);
+  evalBsdf(mats, off, s);
+}
 import { SampleStream } from "../../../tracer/math/rng";
 
 const deg = (d: number) => (d * Math.PI) / 180;
@@ -245,7 +257,7 @@ function estimateAlbedo(mat: number[], woz: number, n: number, seed: number) {
   let sum2 = 0;
   for (let i = 0; i < n; i++) {
     rng.start(seed, i, 0);
-    const ok = sampleBsdf(mats, 0, wox, 0, woz, rng.next(), rng.next(), rng.next(), s);
+    const ok = sampleFrom(mats, 0, wox, 0, woz, rng.next(), rng.next(), rng.next(), s);
     const w = ok ? s.r : 0;
     sum += w;
     sum2 += w * w;
@@ -275,10 +287,10 @@ describe("BSDF sampling weights integrate to the reflectance", () => {
     mats.set([MAT_GLASS, 1.5, 0, 0, 0, 0]);
     const s = new BsdfScratch();
     const R = fresnelDielectric(1, 1.5);
-    expect(sampleBsdf(mats, 0, 0, 0, 1, 0.5, 0.5, R * 0.5, s)).toBe(true);
+    expect(sampleFrom(mats, 0, 0, 0, 1, 0.5, 0.5, R * 0.5, s)).toBe(true);
     expect(s.wz).toBe(1);
     expect(s.pdf).toBeCloseTo(0.04, 12);
-    expect(sampleBsdf(mats, 0, 0, 0, 1, 0.5, 0.5, 0.9, s)).toBe(true);
+    expect(sampleFrom(mats, 0, 0, 0, 1, 0.5, 0.5, 0.9, s)).toBe(true);
     expect(s.wz).toBeCloseTo(-1, 12);
     expect(s.r).toBeCloseTo(1 / 2.25, 12);
     expect(s.pdf).toBeCloseTo(0.96, 12);
@@ -294,8 +306,8 @@ describe("BSDF sampling weights integrate to the reflectance", () => {
       rng.start(11, i, 0);
       const woz = i % 2 === 0 ? 0.8 : -0.6;
       const wox = Math.sqrt(1 - woz * woz);
-      if (!sampleBsdf(mats, 0, wox, 0, woz, rng.next(), rng.next(), rng.next(), s)) continue;
-      evalBsdf(mats, 0, wox, 0, woz, s.wx, s.wy, s.wz, e);
+      if (!sampleFrom(mats, 0, wox, 0, woz, rng.next(), rng.next(), rng.next(), s)) continue;
+      evalFor(mats, 0, wox, 0, woz, s.wx, s.wy, s.wz, e);
       expect(e.pdf).toBeGreaterThan(0);
       expect(e.pdf / s.pdf).toBeCloseTo(1, 6);
       expect(e.r / e.pdf / s.r).toBeCloseTo(1, 6);
@@ -311,8 +323,8 @@ describe("BSDF sampling weights integrate to the reflectance", () => {
     const rng = new SampleStream();
     for (let i = 0; i < 1000; i++) {
       rng.start(12, i, 0);
-      if (!sampleBsdf(mats, 0, 0.6, 0, 0.8, rng.next(), rng.next(), rng.next(), s)) continue;
-      evalBsdf(mats, 0, 0.6, 0, 0.8, s.wx, s.wy, s.wz, e);
+      if (!sampleFrom(mats, 0, 0.6, 0, 0.8, rng.next(), rng.next(), rng.next(), s)) continue;
+      evalFor(mats, 0, 0.6, 0, 0.8, s.wx, s.wy, s.wz, e);
       expect(e.pdf / s.pdf).toBeCloseTo(1, 6);
       expect(e.g / e.pdf / s.g).toBeCloseTo(1, 6);
     }
