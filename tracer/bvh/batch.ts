@@ -9,7 +9,7 @@
  * are written as float32, exact up to 2^24 triangles (far above the scene limits).
  */
 import { buildBvhConsuming, type BuildBvhOptions } from "./build";
-import { closestHitStream } from "./stream";
+import { closestHitStream, collapseToWide } from "./stream";
 import { closestHitBatch, createTraversalScratch, type TriangleBvh } from "./traverse";
 
 export type { TriangleBvh } from "./traverse";
@@ -30,7 +30,7 @@ export function buildTriangleBvh(positions: Float32Array, indices: Uint32Array, 
   const bvh = buildBvhConsuming(bounds, { traversalCost: 4, ...options });
   const tris = new Float32Array(triCount * 9);
   gatherTriangles(positions, indices, bvh.primIndices, tris);
-  return { bvh, tris, triCount };
+  return { bvh, wide: collapseToWide(bvh), tris, triCount };
 }
 
 // The loops below live in their own small functions with nothing after the loop: V8 compiles long
@@ -81,10 +81,12 @@ const SORT_MIN_RAYS = 1024;
 /**
  * Closest hit for every ray; returns the number of hits. Large batches are sorted so neighbours
  * come together (direction octant, then a Morton code of the origin) and traced as streams of
- * same-octant rays (stream.ts). The sort alone, against tracing in the given order, measured
- * 1.05–1.1× the rays per CPU second on the 59k-triangle bunny and 1.2–1.3× on the 941k one; the
- * stream traversal adds 1.25–1.35× on the 3.7k bunny and 1.1–1.15× on 59k over the single-ray
- * loop. Each ray's result is independent of the order and is written at the ray's own index.
+ * same-octant rays over the 4-wide tree (stream.ts). The sort alone, against tracing in the given
+ * order, measured 1.05–1.1× the rays per CPU second on the 59k-triangle bunny and 1.2–1.3× on the
+ * 941k one; the stream over the 4-wide tree measured 1.7–1.85× the binary-tree stream it replaced
+ * on the 3.7k and 59k bunnies (sort included). Smaller batches take the single-ray loop
+ * (traverse.ts) over the binary tree. Each ray's result is independent of the order and is written
+ * at the ray's own index.
  */
 export function intersectRays(mesh: TriangleBvh, rays: Float32Array, out: Float32Array): number {
   if (rays.length % 8 !== 0) throw new Error(`intersectRays: rays length ${rays.length} is not a multiple of 8`);
@@ -102,7 +104,8 @@ export function intersectRays(mesh: TriangleBvh, rays: Float32Array, out: Float3
     // Least-significant-digit radix sort of the 21-bit keys, 11 bits per pass (2 passes end in `order`).
     radixPass(keys, order, keysTmp, orderTmp, n, 0, counts);
     radixPass(keysTmp, orderTmp, keys, order, n, 11, counts);
-    return closestHitStream(mesh, rays, order, n, out);
+    keyOctants(keys, n);
+    return closestHitStream(mesh, rays, order, keys, n, out);
   }
   return closestHitBatch(mesh, rays, order, 0, n, out, scratch);
 }
@@ -146,6 +149,11 @@ function rayKeys(rays: Float32Array, n: number, box: Float64Array, out: Uint32Ar
   }
 }
 
+/** Sorted keys → their octants, so the stream finds each octant's run without reading the rays again. */
+function keyOctants(k: Uint32Array, n: number): void {
+  for (let i = 0; i < n; i++) k[i] = k[i]! >>> 18;
+}
+
 /** One stable counting-sort pass on 11 bits of the key starting at `shift`. */
 function radixPass(keyIn: Uint32Array, idxIn: Uint32Array, keyOut: Uint32Array, idxOut: Uint32Array, n: number, shift: number, count: Int32Array): void {
   count.fill(0);
@@ -158,7 +166,7 @@ function radixPass(keyIn: Uint32Array, idxIn: Uint32Array, keyOut: Uint32Array, 
   }
 }
 
-/** Bytes held by a triangle BVH (nodes, leaf order map, triangle data). */
+/** Bytes held by a triangle BVH (binary and 4-wide nodes, leaf order map, triangle data). */
 export function triangleBvhByteLength(mesh: TriangleBvh): number {
-  return mesh.bvh.nodes.byteLength + mesh.bvh.primIndices.byteLength + mesh.tris.byteLength;
+  return mesh.bvh.nodes.byteLength + mesh.wide.nodes.byteLength + mesh.bvh.primIndices.byteLength + mesh.tris.byteLength;
 }

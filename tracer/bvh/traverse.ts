@@ -15,9 +15,12 @@
  * double-sided.
  */
 import { TRAVERSAL_STACK_SIZE, type Bvh } from "./layout";
+import type { WideBvh } from "./stream";
 
 export type TriangleBvh = {
   bvh: Bvh;
+  /** The same tree collapsed to 4-wide nodes, for the stream traversal of large batches (stream.ts). */
+  wide: WideBvh;
   /** 9 floats per triangle in leaf order: v0.xyz, e1.xyz, e2.xyz. Leaf slot k ↔ caller triangle bvh.primIndices[k]. */
   tris: Float32Array;
   triCount: number;
