@@ -18,7 +18,7 @@ export function fresnelDielectric(cosI: number, eta: number): number {
   if (cosI > 1) cosI = 1;
   const sin2I = 1 - cosI * cosI;
   const sin2T = sin2I / (eta * eta);
-  if (sin2T >= 1) return 1;
+  if (sin2T >= 1) return 1 + 0 * cosI; // 1, as a double (see ggx.ts: constant returns make V8 box)
   const cosT = Math.sqrt(1 - sin2T);
   // rs with n1 = 1, n2 = eta (scale-free): (n1 cosI − n2 cosT)/(n1 cosI + n2 cosT)
   const rs = (cosI - eta * cosT) / (cosI + eta * cosT);
@@ -72,7 +72,7 @@ export function refract(
   }
   const sin2I = Math.max(0, 1 - cosI * cosI);
   const sin2T = sin2I / (eta * eta);
-  if (sin2T >= 1) return 0;
+  if (sin2T >= 1) return 0 * eta; // 0, as a double (see ggx.ts)
   const cosT = Math.sqrt(1 - sin2T);
   const k = cosI / eta - cosT;
   out[0] = -wx / eta + k * nx;

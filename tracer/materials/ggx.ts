@@ -11,19 +11,18 @@ export const MIN_ALPHA = 1e-3;
 
 /** D(m) for a microfacet normal with cosine mz to the macro normal (0 on the back side). */
 export function ggxD(mz: number, alpha: number): number {
-  if (mz <= 0) return 0;
   const a2 = alpha * alpha;
   const c2 = mz * mz;
   const t = c2 * (a2 - 1) + 1;
-  return a2 / (Math.PI * t * t);
+  const d = a2 / (Math.PI * t * t);
+  return mz > 0 ? d : 0 * d;
 }
 
 /** Smith Λ(w) for a direction with cosine z to the macro normal. */
 export function ggxLambda(z: number, alpha: number): number {
   const c2 = z * z;
-  if (c2 >= 1) return 0;
-  if (c2 <= 0) return Infinity;
-  const tan2 = (1 - c2) / c2;
+  // tan²θ clamped at 0 for |z| ≥ 1 (Λ = 0) and ∞ at z = 0 (Λ = ∞)
+  const tan2 = Math.max(0, (1 - c2) / c2);
   return 0.5 * (-1 + Math.sqrt(1 + alpha * alpha * tan2));
 }
 
