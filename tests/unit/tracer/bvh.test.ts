@@ -101,6 +101,25 @@ describe("buildBvh", () => {
     expect(bvh.nodes[left * NODE_WORDS]! > 99 || bvh.nodes[right * NODE_WORDS]! > 99).toBe(true);
   });
 
+  it("splits large nodes by position even when the primitives it samples all coincide", () => {
+    // Large nodes choose their plane from an evenly strided sample. Here every 7th primitive sits at
+    // one point, so a stride that is a multiple of 7 sees a single bin; the builder must still find
+    // a real plane rather than halving the (random-order) list, whose halves both fill the cube.
+    const n = 64 * 7; // a stride of 7 (see SAMPLE_SIZE in build.ts)
+    const bounds = randomBoxes(n, 11);
+    for (let i = 0; i < n; i += 7) bounds.set([0.5, 0.5, 0.5, 0.5, 0.5, 0.5], i * 6);
+    const bvh = buildBvh(bounds);
+    checkTree(bvh, bounds);
+    const area = (node: number) => {
+      const o = node * NODE_WORDS, f = bvh.nodes;
+      const dx = f[o + 3]! - f[o]!, dy = f[o + 4]! - f[o + 1]!, dz = f[o + 5]! - f[o + 2]!;
+      return dx * dy + dy * dz + dz * dx;
+    };
+    // A plane through the cube leaves each child about two thirds of the root's surface (a halved
+    // unit cube: (1·1 + 1·0.5 + 0.5·1) / 3 = 2/3); a split of the list order leaves both about 1.
+    expect(area(1) + area(rightChild(bvh, 0))).toBeLessThan(1.6 * area(0));
+  });
+
   it("builds trees with a lower SAH cost than splitting at the middle of the range", () => {
     // A median split on list order (the input is in random order) is the worst-case baseline;
     // a working SAH build must beat it by a wide margin.
