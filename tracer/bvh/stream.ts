@@ -64,6 +64,8 @@ const COUNT_MASK = 0xffffff;
 
 // Collapse scratch: the binary subtree expanded into one wide node (at most 3 expansions, 7 nodes).
 const expNode = new Int32Array(8), expLeft = new Int32Array(8), expSlot = new Int32Array(8);
+/** Half surface area of an expansion node, or −1 for a leaf (never expanded). */
+const expArea = new Float64Array(8);
 const kidExp = new Int32Array(4), dfs = new Int32Array(8), visit = new Int32Array(4);
 
 /**
@@ -93,19 +95,17 @@ export function collapseToWide(bvh: Bvh): WideBvh {
     if (empty) kids = 0;
     else if (bw[b * 8 + 7]! >>> 2 !== 0) { kidExp[0] = 0; kids = 1; } // a leaf root
     else {
-      expand(bw, 0, expCount); expCount += 2;
+      expand(bn, bw, 0, expCount); expCount += 2;
       kidExp[0] = 1; kidExp[1] = 2; kids = 2;
       while (kids < 4) {
         let pick = -1, pickArea = -1;
         for (let i = 0; i < kids; i++) {
-          const n = expNode[kidExp[i]!]!;
-          if (bw[n * 8 + 7]! >>> 2 !== 0) continue;
-          const a = halfArea(bn, n * 8);
+          const a = expArea[kidExp[i]!]!;
           if (a > pickArea) { pickArea = a; pick = i; }
         }
         if (pick < 0) break;
         const x = kidExp[pick]!;
-        expand(bw, x, expCount); expCount += 2;
+        expand(bn, bw, x, expCount); expCount += 2;
         kidExp[pick] = expLeft[x]!; kidExp[kids++] = expLeft[x]! + 1;
       }
     }
@@ -151,15 +151,17 @@ export function collapseToWide(bvh: Bvh): WideBvh {
 }
 
 /** Adds the binary children of expansion node x as expansion nodes at..at+1 (left, right). */
-function expand(bw: Uint32Array, x: number, at: number): void {
-  const n = expNode[x]!;
+function expand(bn: Float32Array, bw: Uint32Array, x: number, at: number): void {
+  const n = expNode[x]!, left = n + 1, right = bw[n * 8 + 6]!;
   expLeft[x] = at;
-  expNode[at] = n + 1; expLeft[at] = -1;
-  expNode[at + 1] = bw[n * 8 + 6]!; expLeft[at + 1] = -1;
+  expNode[at] = left; expLeft[at] = -1; expArea[at] = expansionArea(bn, bw, left);
+  expNode[at + 1] = right; expLeft[at + 1] = -1; expArea[at + 1] = expansionArea(bn, bw, right);
 }
 
-function halfArea(n: Float32Array, o: number): number {
-  const x = n[o + 3]! - n[o]!, y = n[o + 4]! - n[o + 1]!, z = n[o + 5]! - n[o + 2]!;
+function expansionArea(bn: Float32Array, bw: Uint32Array, n: number): number {
+  if (bw[n * 8 + 7]! >>> 2 !== 0) return -1;
+  const o = n * 8;
+  const x = bn[o + 3]! - bn[o]!, y = bn[o + 4]! - bn[o + 1]!, z = bn[o + 5]! - bn[o + 2]!;
   return x * y + y * z + z * x;
 }
 
