@@ -17,7 +17,7 @@ import { traceRay, surfaceAt, Ray, Hit, TraceScratch } from "../geometry/interse
 import { BsdfScratch, MATERIAL_STRIDE, MAT_DIFFUSE, MAT_GLASS, evalBsdf, isDeltaMaterial, sampleBsdf } from "../materials/bsdf";
 import { LightSample, lightPdf, pickLight, sampleLight } from "../lights/lights";
 import { envPdf, envRadiance, sampleEnv } from "../lights/environment";
-import { basisFromNormal, powerHeuristic } from "../math/sampling";
+import { basisFromNormal, powerHeuristicInto } from "../math/sampling";
 import type { SampleStream } from "../math/rng";
 
 /** Dimensions used by the camera (lens u, lens v, shutter time) before the first bounce. */
@@ -45,6 +45,12 @@ export class PathScratch {
    * would box on the heap: the loop allocates nothing per sample (checked by a heap-sampling test).
    */
   readonly query = new Float64Array(8);
+  /**
+   * MIS weight: pdfs in [0] and [1], weight (or 1 without MIS) in [2]. V8 leaves some calls of this large
+   * loop un-inlined and then boxes their double arguments and results, and a variable holding either the
+   * constant 1 or a computed weight it kept as a tagged value: both measured as allocation per sample.
+   */
+  readonly weights = new Float64Array(3);
   /** per-group radiance of the current sample, groups×3 */
   groups: Float64Array;
   constructor(groupCount: number) {
@@ -67,6 +73,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
   const B = sc.basis;
   const rgb = sc.rgb;
   const query = sc.query;
+  const weights = sc.weights;
   const mats = s.materials;
   const lights = s.lights;
   const info = s.primInfo;
@@ -86,11 +93,14 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
         query[1] = ray.dy;
         query[2] = ray.dz;
         envRadiance(s, query, rgb);
-        let w = 1;
+        weights[2] = 1;
         if (!prevDelta && s.envPick > 0) {
           envPdf(s, query);
-          w = powerHeuristic(prevPdf, s.envPick * query[3]);
+          weights[0] = prevPdf;
+          weights[1] = s.envPick * query[3];
+          powerHeuristicInto(weights);
         }
+        const w = weights[2];
         const g = s.envGroup * 3;
         out[g] += tr * rgb[0] * w;
         out[g + 1] += tg * rgb[1] * w;
@@ -113,7 +123,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
       // since lights reflect nothing.
       const lo = li * LIGHT_STRIDE;
       if (cosGeo < 0) {
-        let w = 1;
+        weights[2] = 1;
         if (!prevDelta) {
           query[0] = prevX;
           query[1] = prevY;
@@ -123,9 +133,11 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
           query[5] = dz;
           query[6] = hit.t;
           lightPdf(s, li, query);
-          const pl = lights[lo + 20] * query[7];
-          w = powerHeuristic(prevPdf, pl);
+          weights[0] = prevPdf;
+          weights[1] = lights[lo + 20] * query[7];
+          powerHeuristicInto(weights);
         }
+        const w = weights[2];
         const g = lights[lo + 1] * 3;
         out[g] += tr * lights[lo + 3] * w;
         out[g + 1] += tg * lights[lo + 4] * w;
@@ -224,11 +236,17 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
             sh.dy = wy;
             sh.dz = wz;
             sh.time = ray.time;
-            sh.tmax = ls.dist === Infinity ? Infinity : ls.dist * (1 - 1e-6) - 2 * eps;
+            // ls.dist rather than the constant Infinity: see `weights`
+            sh.tmax = ls.dist === Infinity ? ls.dist : ls.dist * (1 - 1e-6) - 2 * eps;
             if (!traceRay(s, sh, sc.shadowHit, sc.trace, true, skip)) {
               const pl = pickProb * ls.pdf;
-              const w = mis && !ls.delta && !endsHere ? powerHeuristic(pl, bs.pdf) : 1;
-              const k = w / pl;
+              weights[2] = 1;
+              if (mis && !ls.delta && !endsHere) {
+                weights[0] = pl;
+                weights[1] = bs.pdf;
+                powerHeuristicInto(weights);
+              }
+              const k = weights[2] / pl;
               const g = group * 3;
               out[g] += tr * bs.r * ls.r * k;
               out[g + 1] += tg * bs.g * ls.g * k;

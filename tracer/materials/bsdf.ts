@@ -263,35 +263,38 @@ function sampleRoughGlass(mats: Float64Array, off: number, s: BsdfScratch): bool
   const F = fresnelDielectric(om, eta);
   const D = ggxD(m[2], alpha);
   s.delta = false;
-  if (u3 < F) {
-    const wix = 2 * om * m[0] - wox;
-    const wiy = 2 * om * m[1] - woy;
-    const wiz = 2 * om * m[2] - woz;
+  // Choose the lobe and its direction first, so G2 is evaluated at one call site (V8 then inlines it).
+  const reflect = u3 < F;
+  let wix: number, wiy: number, wiz: number;
+  let etap = 1;
+  if (reflect) {
+    wix = 2 * om * m[0] - wox;
+    wiy = 2 * om * m[1] - woy;
+    wiz = 2 * om * m[2] - woz;
     if (wiz * woz <= 0) return false;
-    const G = ggxG2(Math.abs(woz), Math.abs(wiz), alpha);
+  } else {
+    etap = refract(wox, woy, woz, m[0], m[1], m[2], eta, v);
+    if (etap === 0) return false;
+    wix = v[0];
+    wiy = v[1];
+    wiz = v[2];
+    if (wiz * woz >= 0) return false;
+  }
+  const G = ggxG2(Math.abs(woz), Math.abs(wiz), alpha);
+  s.wx = wix;
+  s.wy = wiy;
+  s.wz = wiz;
+  if (reflect) {
     const w = (G * Math.abs(om)) / (Math.abs(woz) * m[2]);
-    s.wx = wix;
-    s.wy = wiy;
-    s.wz = wiz;
     s.r = w;
     s.g = w;
     s.b = w;
     s.pdf = ((D * m[2]) / (4 * Math.abs(om))) * F;
     return true;
   }
-  const etap = refract(wox, woy, woz, m[0], m[1], m[2], eta, v);
-  if (etap === 0) return false;
-  const wix = v[0];
-  const wiy = v[1];
-  const wiz = v[2];
-  if (wiz * woz >= 0) return false;
   const im = wix * m[0] + wiy * m[1] + wiz * m[2];
-  const G = ggxG2(Math.abs(woz), Math.abs(wiz), alpha);
   const w = (G * Math.abs(om)) / (Math.abs(woz) * m[2] * etap * etap);
   const den = im + om / etap;
-  s.wx = wix;
-  s.wy = wiy;
-  s.wz = wiz;
   s.r = w;
   s.g = w;
   s.b = w;

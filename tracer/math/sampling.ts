@@ -81,6 +81,11 @@ export function powerHeuristic(pdfA: number, pdfB: number): number {
   return s > 0 ? a / s : 0;
 }
 
+/** powerHeuristic(w[0], w[1]) into w[2]: for loops where V8 may not inline the call (see integrators/path.ts). */
+export function powerHeuristicInto(w: Float64Array): void {
+  w[2] = powerHeuristic(w[0], w[1]);
+}
+
 /**
  * Orthonormal basis (t, b) around unit n, written as [tx,ty,tz,bx,by,bz] into out
  * (Duff et al., "Building an Orthonormal Basis, Revisited", JCGT 6(1), 2017).
