@@ -5,7 +5,7 @@
  * which changes what V8 inlines and so what it boxes.
  *
  * Bound: before doubles went to non-inlined calls through typed arrays, the same probe measured 366–791
- * bytes per sample on these scenes (each boxed double is a 16-byte heap number); after, 0.1–57 (the rest is
+ * bytes per sample on these scenes (each boxed double is a 16-byte heap number); after, 0.1–71 (the rest is
  * boxing V8 still does where it leaves a small helper un-inlined). 100 bytes per sample fails on a return
  * to per-call boxing without failing on V8's inlining choices.
  */
