@@ -1,8 +1,9 @@
 import { describe, expect, it } from "vitest";
 import { Ray, Vector3 } from "three";
 import { buildTriangleBvh, intersectRays } from "../../../tracer/bvh/batch";
-import { anyHit, closestHit } from "../../../tracer/bvh/traverse";
-import { bounceRays, loadBunny, sphereRays } from "../../bench/meshes";
+import { anyHit, closestHit, type TriangleBvh } from "../../../tracer/bvh/traverse";
+import { collapseToWide, WIDE_WORDS } from "../../../tracer/bvh/stream";
+import { bounceRays, loadBunny, makeRandom, sphereRays } from "../../bench/meshes";
 
 const one = (positions: number[], indices: number[]) => buildTriangleBvh(new Float32Array(positions), new Uint32Array(indices));
 
@@ -164,5 +165,99 @@ describe("intersectRays on the Stanford bunny", () => {
       expect(anyHit(mesh, r[0]!, r[1]!, r[2]!, r[3]!, r[4]!, r[5]!, 0, Infinity)).toBe(found);
       if (found) expect(anyHit(mesh, r[0]!, r[1]!, r[2]!, r[3]!, r[4]!, r[5]!, 0, hit[0]! * 0.999)).toBe(false);
     }
+  });
+});
+
+describe("4-wide stream traversal of large batches", () => {
+  const bunny = loadBunny();
+  const mesh = buildTriangleBvh(bunny.positions, bunny.indices);
+
+  /** Every slot of intersectRays' output equals per-ray closestHit (checked against brute force above). */
+  function expectSameAsClosestHit(m: TriangleBvh, rays: Float32Array): number {
+    const n = rays.length / 8;
+    const out = new Float32Array(n * 4), one = new Float64Array(4);
+    const hits = intersectRays(m, rays, out);
+    let expectedHits = 0;
+    for (let i = 0; i < n; i++) {
+      const r = rays.subarray(i * 8, i * 8 + 8);
+      if (closestHit(m, r[0]!, r[1]!, r[2]!, r[3]!, r[4]!, r[5]!, r[6]!, r[7]!, one, 0)) expectedHits++;
+      expect([out[i * 4], out[i * 4 + 1], out[i * 4 + 2], out[i * 4 + 3]]).toEqual(Array.from(one, (x) => Math.fround(x)));
+    }
+    expect(hits).toBe(expectedHits);
+    return hits;
+  }
+
+  it("collapses the binary tree into child boxes that bound their subtrees and cover every triangle once", () => {
+    // Bounding-volume invariant of any BVH (common practice): a child's box holds every triangle
+    // below it; each triangle slot is reached through exactly one leaf.
+    const wide = collapseToWide(mesh.bvh);
+    const covered = new Uint8Array(mesh.triCount);
+    const subtreeBox = (node: number, slot: number): number[] => {
+      const o = node * WIDE_WORDS, ref = wide.words[o + 24 + slot]!, count = wide.words[o + 28 + slot]! & 0xffffff;
+      const box = [Infinity, Infinity, Infinity, -Infinity, -Infinity, -Infinity];
+      const grow = (b: number[]) => { for (let k = 0; k < 3; k++) { box[k] = Math.min(box[k]!, b[k]!); box[k + 3] = Math.max(box[k + 3]!, b[k + 3]!); } };
+      if (count > 0) {
+        for (let t = ref; t < ref + count; t++) {
+          covered[t]++;
+          const q = t * 9, v = [0, 1, 2].map((k) => mesh.tris[q + k]!);
+          for (const e of [[0, 0, 0], [3, 4, 5], [6, 7, 8]]) {
+            const p = e[0] === 0 ? v : v.map((x, k) => x + mesh.tris[q + e[k]!]!);
+            grow([...p, ...p]);
+          }
+        }
+      } else {
+        for (let j = 0; j < 4; j++) if (!Number.isNaN(wide.nodes[ref * WIDE_WORDS + j]!)) grow(subtreeBox(ref, j));
+      }
+      for (let k = 0; k < 3; k++) {
+        // v0 + e1 is rounded again here, so allow one float32 step.
+        expect(wide.nodes[o + k * 4 + slot]!).toBeLessThanOrEqual(box[k]! + 1e-6 * Math.max(1, Math.abs(box[k]!)));
+        expect(wide.nodes[o + 12 + k * 4 + slot]!).toBeGreaterThanOrEqual(box[k + 3]! - 1e-6 * Math.max(1, Math.abs(box[k + 3]!)));
+      }
+      return box;
+    };
+    for (let j = 0; j < 4; j++) if (!Number.isNaN(wide.nodes[j]!)) subtreeBox(0, j);
+    expect(Array.from(covered).every((c) => c === 1)).toBe(true);
+    for (let node = 0; node < wide.nodeCount; node++) {
+      for (let octant = 0; octant < 4; octant++) {
+        const order = wide.words[node * WIDE_WORDS + 28 + octant]! >>> 24;
+        expect([0, 2, 4, 6].map((s) => (order >> s) & 3).sort()).toEqual([0, 1, 2, 3]);
+      }
+    }
+    expect(wide.nodeCount).toBeLessThan(mesh.bvh.nodeCount / 3);
+  });
+
+  it("matches closestHit on axis-parallel rays, rays starting on or inside the mesh and empty intervals", () => {
+    const rnd = makeRandom(41);
+    const n = 2400, rays = new Float32Array(n * 8);
+    const lo = [-0.1, 0.03, -0.06], hi = [0.06, 0.19, 0.06]; // around the bunny's box
+    for (let i = 0; i < n; i++) {
+      const o = [0, 1, 2].map((k) => lo[k]! + (hi[k]! - lo[k]!) * rnd());
+      let d = [rnd() - 0.5, rnd() - 0.5, rnd() - 0.5];
+      const kind = i % 6;
+      if (kind === 1) d = [0, 0, rnd() < 0.5 ? -1 : 1]; // two zero components
+      if (kind === 2) d = [-0, rnd() - 0.5, 0]; // a negative zero
+      if (kind === 3) o[0] = mesh.bvh.nodes[0]!; // origin on the root box's min-x plane
+      const tmin = kind === 4 ? 0.02 : 0, tmax = kind === 5 ? (rnd() < 0.5 ? 0.05 : -1) : Infinity; // -1: empty interval
+      rays.set([o[0]!, o[1]!, o[2]!, d[0]!, d[1]!, d[2]!, tmin, tmax], i * 8);
+    }
+    expect(expectSameAsClosestHit(mesh, rays)).toBeGreaterThan(300);
+  });
+
+  it("traces large batches against a one-triangle mesh and an empty mesh", () => {
+    const tri = buildTriangleBvh(new Float32Array([0, 0, 0, 1, 0, 0, 0, 1, 0]), new Uint32Array([0, 1, 2]));
+    const rnd = makeRandom(5);
+    const n = 1500, rays = new Float32Array(n * 8);
+    for (let i = 0; i < n; i++) rays.set([rnd(), rnd(), i % 2 ? 1 : -1, 0.2 * (rnd() - 0.5), 0.2 * (rnd() - 0.5), i % 2 ? -1 : 1, 0, Infinity], i * 8);
+    expect(expectSameAsClosestHit(tri, rays)).toBeGreaterThan(500);
+    // Rays through the vertex (0, 1, 0) along (1, −1, −1): they enter the flat box on all three
+    // axes and leave it through z at the same t, so a strict comparison anywhere in the slab test
+    // would miss them (dyadic numbers keep every product exact).
+    const grazing = new Float32Array(1100 * 8);
+    for (let i = 0; i < 1100; i++) { const s = 1 + i / 1024; grazing.set([-s, 1 + s, s, 1, -1, -1, 0, Infinity], i * 8); }
+    expect(expectSameAsClosestHit(tri, grazing)).toBe(1100);
+    const none = buildTriangleBvh(new Float32Array(0), new Uint32Array(0));
+    const out = new Float32Array(n * 4);
+    expect(intersectRays(none, rays, out)).toBe(0);
+    for (let i = 0; i < n; i++) expect(out[i * 4]).toBe(Infinity);
   });
 });
