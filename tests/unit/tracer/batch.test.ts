@@ -243,6 +243,19 @@ describe("4-wide stream traversal of large batches", () => {
     expect(expectSameAsClosestHit(mesh, rays)).toBeGreaterThan(300);
   });
 
+  it("matches closestHit when only one or two rays of a chunk reach each subtree", () => {
+    // A large batch (so it is sorted and streamed) where almost every ray points away from the
+    // bunny: the few that reach it arrive in lists short enough to be traced one ray at a time.
+    const aimed = sphereRays(bunny.positions, 24, 77);
+    const n = 1200, rays = new Float32Array(n * 8);
+    for (let i = 0; i < n; i++) {
+      const a = aimed.subarray((i % 24) * 8, (i % 24) * 8 + 8);
+      rays.set(a, i * 8);
+      if (i >= 24) { rays[i * 8 + 3] = -a[3]!; rays[i * 8 + 4] = -a[4]!; rays[i * 8 + 5] = -a[5]!; } // turned away
+    }
+    expect(expectSameAsClosestHit(mesh, rays)).toBeGreaterThan(10);
+  });
+
   it("traces large batches against a one-triangle mesh and an empty mesh", () => {
     const tri = buildTriangleBvh(new Float32Array([0, 0, 0, 1, 0, 0, 0, 1, 0]), new Uint32Array([0, 1, 2]));
     const rnd = makeRandom(5);
