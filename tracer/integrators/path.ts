@@ -17,7 +17,7 @@ import { traceRay, surfaceAt, Ray, Hit, TraceScratch } from "../geometry/interse
 import { BsdfScratch, MATERIAL_STRIDE, MAT_DIFFUSE, MAT_GLASS, evalBsdf, isDeltaMaterial, sampleBsdf } from "../materials/bsdf";
 import { LightSample, lightPdf, pickLight, sampleLight } from "../lights/lights";
 import { envPdf, envRadiance, sampleEnv } from "../lights/environment";
-import { basisFromNormal, powerHeuristicInto } from "../math/sampling";
+import { basisFromNormal, powerHeuristic } from "../math/sampling";
 import type { SampleStream } from "../math/rng";
 
 /** Dimensions used by the camera (lens u, lens v, shutter time) before the first bounce. */
@@ -98,7 +98,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
           envPdf(s, query);
           weights[0] = prevPdf;
           weights[1] = s.envPick * query[3];
-          powerHeuristicInto(weights);
+          powerHeuristic(weights);
         }
         const w = weights[2];
         const g = s.envGroup * 3;
@@ -110,7 +110,8 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
     }
     surfaceAt(s, ray, hit);
     const ib = hit.prim * PRIM_INFO_STRIDE;
-    const li = info[ib + 2];
+    // Indices as int32 (`| 0`): a float64 index passed to a call that is not inlined is boxed.
+    const li = info[ib + 2] | 0;
     const dx = ray.dx, dy = ray.dy, dz = ray.dz;
     let ngx = hit.ngx, ngy = hit.ngy, ngz = hit.ngz;
     const cosGeo = dx * ngx + dy * ngy + dz * ngz; // < 0: the ray arrives on the normal's side
@@ -135,7 +136,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
           lightPdf(s, li, query);
           weights[0] = prevPdf;
           weights[1] = lights[lo + 20] * query[7];
-          powerHeuristicInto(weights);
+          powerHeuristic(weights);
         }
         const w = weights[2];
         const g = lights[lo + 1] * 3;
@@ -145,7 +146,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
       }
       return;
     } else {
-      mat = info[ib + 1];
+      mat = info[ib + 1] | 0;
     }
     if (depth > maxDepth) return;
     const mo = mat * MATERIAL_STRIDE;
@@ -244,7 +245,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
               if (mis && !ls.delta && !endsHere) {
                 weights[0] = pl;
                 weights[1] = bs.pdf;
-                powerHeuristicInto(weights);
+                powerHeuristic(weights);
               }
               const k = weights[2] / pl;
               const g = group * 3;

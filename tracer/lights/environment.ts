@@ -107,8 +107,13 @@ export function envPdf(s: CompiledScene, q: Float64Array): void {
   q[3] = pdfUV / (2 * PI * PI * sinT);
 }
 
-/** Index i with cdf[i] ≤ u < cdf[i+1] in a CDF of n+1 entries starting at `base` (cdf[base] = 0, cdf[base+n] = 1). */
-function findInterval(cdf: Float64Array, base: number, n: number, u: number): number {
+/**
+ * Index i with cdf[i] ≤ u < cdf[i+1] in a CDF of n+1 entries starting at `base` (cdf[base] = 0,
+ * cdf[base+n] = 1), for u = us[k]: the number is read from its array rather than passed, since a double
+ * argument is boxed whenever V8 does not inline the call.
+ */
+function findInterval(cdf: Float64Array, base: number, n: number, us: Float64Array, k: number): number {
+  const u = us[k];
   let lo = 0;
   let hi = n - 1;
   while (lo < hi) {
@@ -144,12 +149,12 @@ export function sampleEnv(s: CompiledScene, ls: LightSample): boolean {
   const W = s.envWidth;
   const H = s.envHeight;
   const marg = s.envMarginal;
-  const row = findInterval(marg, 0, H, u2);
+  const row = findInterval(marg, 0, H, ls.u, 2);
   const dv = (u2 - marg[row]) / (marg[row + 1] - marg[row]);
   const v = (row + Math.min(Math.max(dv, 0), 1)) / H;
   const cond = s.envConditional;
   const base = row * (W + 1);
-  const col = findInterval(cond, base, W, u1);
+  const col = findInterval(cond, base, W, ls.u, 1);
   const du = (u1 - cond[base + col]) / (cond[base + col + 1] - cond[base + col]);
   const u = (col + Math.min(Math.max(du, 0), 1)) / W;
   const theta = v * PI;

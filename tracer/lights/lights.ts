@@ -56,67 +56,83 @@ export function pickLight(s: CompiledScene, ls: LightSample): number {
   return -1;
 }
 
-/** Sample light `li` as seen from point ls.at with the numbers ls.u[1..2]. Returns false if the sample carries no light. */
+/**
+ * Sample light `li` as seen from point ls.at with the numbers ls.u[1..2]. Returns false if the sample
+ * carries no light. One function per kind of light, each small enough that V8 inlines its helpers (a
+ * helper left as a call boxes its double arguments).
+ */
 export function sampleLight(s: CompiledScene, li: number, ls: LightSample): boolean {
-  const px = ls.at[0], py = ls.at[1], pz = ls.at[2];
-  const u1 = ls.u[1], u2 = ls.u[2];
   const L = s.lights;
   const o = li * LIGHT_STRIDE;
   const kind = L[o];
-  const tmp = ls.tmp;
-  if (kind === LIGHT_POINT) {
-    const dx = L[o + 7] - px, dy = L[o + 8] - py, dz = L[o + 9] - pz;
-    const d2 = dx * dx + dy * dy + dz * dz;
-    if (d2 === 0) return false;
-    const d = Math.sqrt(d2);
-    ls.wx = dx / d;
-    ls.wy = dy / d;
-    ls.wz = dz / d;
-    ls.dist = d;
-    ls.r = L[o + 3] / d2;
-    ls.g = L[o + 4] / d2;
-    ls.b = L[o + 5] / d2;
-    ls.pdf = 1;
-    ls.delta = true;
-    return true;
-  }
+  if (kind === LIGHT_POINT) return samplePointLight(L, o, ls);
   ls.delta = false;
-  if (kind === LIGHT_SPHERE) {
-    const cx = L[o + 7] - px, cy = L[o + 8] - py, cz = L[o + 9] - pz;
-    const r = L[o + 19];
-    const dc2 = cx * cx + cy * cy + cz * cz;
-    if (dc2 <= r * r) return false; // inside: a sphere light emits outward only
-    const dc = Math.sqrt(dc2);
-    const sin2 = (r * r) / dc2;
-    const cosMax = Math.sqrt(Math.max(0, 1 - sin2));
-    const oneMinusCos = sin2 / (1 + cosMax);
-    uniformCone(u1, u2, oneMinusCos, tmp);
-    const ax = cx / dc, ay = cy / dc, az = cz / dc;
-    const B = ls.basis;
-    basisFromNormal(ax, ay, az, B);
-    const tx = B[0], ty = B[1], tz = B[2];
-    const bx = B[3], by = B[4], bz = B[5];
-    const lx = tmp[0], ly = tmp[1], lz = tmp[2];
-    const wx = lx * tx + ly * bx + lz * ax;
-    const wy = lx * ty + ly * by + lz * ay;
-    const wz = lx * tz + ly * bz + lz * az;
-    // distance to the near intersection with the sphere along w (clamped for grazing samples)
-    const cosT = lz;
-    const sin2T = Math.max(0, 1 - cosT * cosT);
-    const dist = dc * cosT - Math.sqrt(Math.max(0, r * r - dc2 * sin2T));
-    ls.wx = wx;
-    ls.wy = wy;
-    ls.wz = wz;
-    ls.dist = dist;
-    ls.r = L[o + 3];
-    ls.g = L[o + 4];
-    ls.b = L[o + 5];
-    ls.pdf = 1 / (TWO_PI * oneMinusCos);
-    return true;
-  }
+  if (kind === LIGHT_SPHERE) return sampleSphereLight(L, o, ls);
+  return sampleAreaLight(L, o, kind === LIGHT_RECT, ls);
+}
+
+function samplePointLight(L: Float64Array, o: number, ls: LightSample): boolean {
+  const px = ls.at[0], py = ls.at[1], pz = ls.at[2];
+  const dx = L[o + 7] - px, dy = L[o + 8] - py, dz = L[o + 9] - pz;
+  const d2 = dx * dx + dy * dy + dz * dz;
+  if (d2 === 0) return false;
+  const d = Math.sqrt(d2);
+  ls.wx = dx / d;
+  ls.wy = dy / d;
+  ls.wz = dz / d;
+  ls.dist = d;
+  ls.r = L[o + 3] / d2;
+  ls.g = L[o + 4] / d2;
+  ls.b = L[o + 5] / d2;
+  ls.pdf = 1;
+  ls.delta = true;
+  return true;
+}
+
+function sampleSphereLight(L: Float64Array, o: number, ls: LightSample): boolean {
+  const px = ls.at[0], py = ls.at[1], pz = ls.at[2];
+  const u1 = ls.u[1], u2 = ls.u[2];
+  const tmp = ls.tmp;
+  const cx = L[o + 7] - px, cy = L[o + 8] - py, cz = L[o + 9] - pz;
+  const r = L[o + 19];
+  const dc2 = cx * cx + cy * cy + cz * cz;
+  if (dc2 <= r * r) return false; // inside: a sphere light emits outward only
+  const dc = Math.sqrt(dc2);
+  const sin2 = (r * r) / dc2;
+  const cosMax = Math.sqrt(Math.max(0, 1 - sin2));
+  const oneMinusCos = sin2 / (1 + cosMax);
+  uniformCone(u1, u2, oneMinusCos, tmp);
+  const ax = cx / dc, ay = cy / dc, az = cz / dc;
+  const B = ls.basis;
+  basisFromNormal(ax, ay, az, B);
+  const tx = B[0], ty = B[1], tz = B[2];
+  const bx = B[3], by = B[4], bz = B[5];
+  const lx = tmp[0], ly = tmp[1], lz = tmp[2];
+  const wx = lx * tx + ly * bx + lz * ax;
+  const wy = lx * ty + ly * by + lz * ay;
+  const wz = lx * tz + ly * bz + lz * az;
+  // distance to the near intersection with the sphere along w (clamped for grazing samples)
+  const cosT = lz;
+  const sin2T = Math.max(0, 1 - cosT * cosT);
+  const dist = dc * cosT - Math.sqrt(Math.max(0, r * r - dc2 * sin2T));
+  ls.wx = wx;
+  ls.wy = wy;
+  ls.wz = wz;
+  ls.dist = dist;
+  ls.r = L[o + 3];
+  ls.g = L[o + 4];
+  ls.b = L[o + 5];
+  ls.pdf = 1 / (TWO_PI * oneMinusCos);
+  return true;
+}
+
+function sampleAreaLight(L: Float64Array, o: number, rect: boolean, ls: LightSample): boolean {
+  const px = ls.at[0], py = ls.at[1], pz = ls.at[2];
+  const u1 = ls.u[1], u2 = ls.u[2];
+  const tmp = ls.tmp;
   // rect or disk: uniform by area
   let qx: number, qy: number, qz: number;
-  if (kind === LIGHT_RECT) {
+  if (rect) {
     qx = L[o + 7] + u1 * L[o + 10] + u2 * L[o + 13];
     qy = L[o + 8] + u1 * L[o + 11] + u2 * L[o + 14];
     qz = L[o + 9] + u1 * L[o + 12] + u2 * L[o + 15];

@@ -8,7 +8,7 @@
  *   metal:   [MAT_METAL, reflectance r, g, b, alpha]          (alpha < MIN_ALPHA → perfect mirror)
  *   glass:   [MAT_GLASS, ior, alpha, absorption r, g, b]       (alpha < MIN_ALPHA → smooth)
  */
-import { fresnelDielectric, refract, schlick } from "./fresnel";
+import { REFRACT_LENGTH, fresnelDielectric, refract, schlick } from "./fresnel";
 import { ggxD, ggxG2, ggxSampleNormal, MIN_ALPHA } from "./ggx";
 import { cosineHemisphere, INV_PI } from "../math/sampling";
 
@@ -42,6 +42,8 @@ export class BsdfScratch {
   delta = false;
   readonly v = new Float64Array(3);
   readonly m = new Float64Array(3);
+  /** refract's record (fresnel.ts) */
+  readonly refraction = new Float64Array(REFRACT_LENGTH);
 }
 
 /** True if the material scatters only in delta directions (no next-event estimation possible). */
@@ -223,7 +225,6 @@ function sampleRoughMetal(mats: Float64Array, off: number, s: BsdfScratch): bool
 
 function sampleSmoothGlass(mats: Float64Array, off: number, s: BsdfScratch): boolean {
   const wox = s.wo[0], woy = s.wo[1], woz = s.wo[2], u3 = s.u[2];
-  const v = s.v;
   const eta = mats[off + 1];
   const F = fresnelDielectric(woz, eta);
   s.delta = true;
@@ -237,11 +238,20 @@ function sampleSmoothGlass(mats: Float64Array, off: number, s: BsdfScratch): boo
     s.pdf = F;
     return true;
   }
-  const etap = refract(wox, woy, woz, 0, 0, 1, eta, v);
+  const q = s.refraction;
+  q[0] = wox;
+  q[1] = woy;
+  q[2] = woz;
+  q[3] = 0;
+  q[4] = 0;
+  q[5] = 1;
+  q[6] = eta;
+  refract(q);
+  const etap = q[10];
   if (etap === 0) return false;
-  s.wx = v[0];
-  s.wy = v[1];
-  s.wz = v[2];
+  s.wx = q[7];
+  s.wy = q[8];
+  s.wz = q[9];
   const k = 1 / (etap * etap);
   s.r = k;
   s.g = k;
@@ -252,7 +262,6 @@ function sampleSmoothGlass(mats: Float64Array, off: number, s: BsdfScratch): boo
 
 function sampleRoughGlass(mats: Float64Array, off: number, s: BsdfScratch): boolean {
   const wox = s.wo[0], woy = s.wo[1], woz = s.wo[2], u1 = s.u[0], u2 = s.u[1], u3 = s.u[2];
-  const v = s.v;
   const eta = mats[off + 1];
   const alpha = mats[off + 2];
   if (woz === 0) return false;
@@ -273,11 +282,20 @@ function sampleRoughGlass(mats: Float64Array, off: number, s: BsdfScratch): bool
     wiz = 2 * om * m[2] - woz;
     if (wiz * woz <= 0) return false;
   } else {
-    etap = refract(wox, woy, woz, m[0], m[1], m[2], eta, v);
+    const q = s.refraction;
+    q[0] = wox;
+    q[1] = woy;
+    q[2] = woz;
+    q[3] = m[0];
+    q[4] = m[1];
+    q[5] = m[2];
+    q[6] = eta;
+    refract(q);
+    etap = q[10];
     if (etap === 0) return false;
-    wix = v[0];
-    wiy = v[1];
-    wiz = v[2];
+    wix = q[7];
+    wiy = q[8];
+    wiz = q[9];
     if (wiz * woz >= 0) return false;
   }
   const G = ggxG2(Math.abs(woz), Math.abs(wiz), alpha);

@@ -47,21 +47,23 @@ export function fresnelDielectricSP(cosI: number, eta: number, out: Float64Array
 }
 
 /**
+ * Length of refract's record: [0..2] direction w, [3..5] normal n, [6] eta (in); [7..9] transmitted
+ * direction, [10] effective eta or 0 (out).
+ */
+export const REFRACT_LENGTH = 11;
+
+/**
  * Refract direction w (pointing away from the surface) through a surface with normal n (unit) and relative
  * index eta = n_{other side}/n_{w side} measured for the normal's side; pbrt's sign-flipping convention.
- * Writes the transmitted direction (pointing away on the other side) and returns the effective eta
- * (n_t/n_i) used, or 0 on total internal reflection.
+ * Reads w, n and eta from the record q and writes the transmitted direction (pointing away on the other
+ * side) and the effective eta (n_t/n_i) used, or 0 on total internal reflection. One record in and out,
+ * not eight doubles in and one out: V8 does not always inline this into the glass lobes and then boxes
+ * every double argument and result.
  */
-export function refract(
-  wx: number,
-  wy: number,
-  wz: number,
-  nx: number,
-  ny: number,
-  nz: number,
-  eta: number,
-  out: Float64Array,
-): number {
+export function refract(q: Float64Array): void {
+  const wx = q[0], wy = q[1], wz = q[2];
+  let nx = q[3], ny = q[4], nz = q[5];
+  let eta = q[6];
   let cosI = nx * wx + ny * wy + nz * wz;
   if (cosI < 0) {
     eta = 1 / eta;
@@ -72,13 +74,16 @@ export function refract(
   }
   const sin2I = Math.max(0, 1 - cosI * cosI);
   const sin2T = sin2I / (eta * eta);
-  if (sin2T >= 1) return 0 * eta; // 0, as a double (see ggx.ts)
+  if (sin2T >= 1) {
+    q[10] = 0;
+    return;
+  }
   const cosT = Math.sqrt(1 - sin2T);
   const k = cosI / eta - cosT;
-  out[0] = -wx / eta + k * nx;
-  out[1] = -wy / eta + k * ny;
-  out[2] = -wz / eta + k * nz;
-  return eta;
+  q[7] = -wx / eta + k * nx;
+  q[8] = -wy / eta + k * ny;
+  q[9] = -wz / eta + k * nz;
+  q[10] = eta;
 }
 
 /** Schlick's approximation R0 + (1 − R0)(1 − cosθ)^5 (Schlick, Computer Graphics Forum 13(3), 1994). */

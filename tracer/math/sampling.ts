@@ -71,19 +71,16 @@ export function uniformTriangle(u1: number, u2: number, out: Float64Array): void
 
 /**
  * Power heuristic with β = 2 for one sample from each of two techniques (Veach & Guibas, "Optimally
- * Combining Sampling Techniques for Monte Carlo Rendering", SIGGRAPH 1995).
+ * Combining Sampling Techniques for Monte Carlo Rendering", SIGGRAPH 1995): the weight of technique A
+ * with pdfs w[0] (A) and w[1] (B), written to w[2]. Through an array, with no call inside, because V8 may
+ * leave a call in the path loop un-inlined and then boxes its double arguments and result per sample.
  */
-export function powerHeuristic(pdfA: number, pdfB: number): number {
+export function powerHeuristic(w: Float64Array): void {
+  const pdfA = w[0], pdfB = w[1];
   const a = pdfA * pdfA;
   const b = pdfB * pdfB;
-  if (a === Infinity) return 1;
   const s = a + b;
-  return s > 0 ? a / s : 0;
-}
-
-/** powerHeuristic(w[0], w[1]) into w[2]: for loops where V8 may not inline the call (see integrators/path.ts). */
-export function powerHeuristicInto(w: Float64Array): void {
-  w[2] = powerHeuristic(w[0], w[1]);
+  w[2] = a === Infinity ? 1 : s > 0 ? a / s : 0;
 }
 
 /**
