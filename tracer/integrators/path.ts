@@ -110,8 +110,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
     }
     surfaceAt(s, ray, hit);
     const ib = hit.prim * PRIM_INFO_STRIDE;
-    // Indices as int32 (`| 0`): a float64 index passed to a call that is not inlined is boxed.
-    const li = info[ib + 2] | 0;
+    const li = info[ib + 2];
     const dx = ray.dx, dy = ray.dy, dz = ray.dz;
     let ngx = hit.ngx, ngy = hit.ngy, ngz = hit.ngz;
     const cosGeo = dx * ngx + dy * ngy + dz * ngz; // < 0: the ray arrives on the normal's side
@@ -146,7 +145,7 @@ export function radiance(s: CompiledScene, sc: PathScratch, rng: SampleStream, m
       }
       return;
     } else {
-      mat = info[ib + 1] | 0;
+      mat = info[ib + 1];
     }
     if (depth > maxDepth) return;
     const mo = mat * MATERIAL_STRIDE;
