@@ -44,9 +44,10 @@
  *                bits 24..31 visiting order for direction octant j (four 2-bit child numbers,
  *                first visited in the low bits); octant 7 − j visits in the reverse order
  *
- * Children are packed into slots 0..k−1 (k = 2..4); an empty slot has NaN bounds, which fail
- * every comparison, and ref = count = 0 (node 0, the root, is never a child). The root's own box
- * is the binary tree's root box.
+ * Children are packed into slots 0..k−1 (k = 2..4; the root has 1 when the whole tree is one leaf
+ * and 0 for an empty mesh); an empty slot has NaN bounds, which fail every comparison, and
+ * ref = count = 0 (node 0, the root, is never a child). The root's own box is the binary tree's
+ * root box.
  */
 import { TRAVERSAL_STACK_SIZE, type Bvh } from "./layout";
 import type { TriangleBvh } from "./traverse";
