@@ -132,9 +132,11 @@ describe("publishing a render from the workspace", () => {
     await page.unroute(filePuts);
     expect(attempts).toBe(2);
     expect(await rendersOf(projectId)).toEqual([]);
-    // The page gave the upload up: it is marked failed and the file that did arrive is no longer staged.
-    const abandoned = await db().select().from(uploads).where(eq(uploads.projectId, projectId));
-    expect(abandoned.map((u) => u.status)).toEqual(["failed"]);
+    // The page gave the upload up: it is marked failed and the file that did arrive is no longer staged. The
+    // page shows the error first and sends the cancel after, so the row may still be pending for a moment.
+    const uploadsOfProject = () => db().select().from(uploads).where(eq(uploads.projectId, projectId));
+    await expect.poll(async () => (await uploadsOfProject()).map((u) => u.status), { timeout: 15_000 }).toEqual(["failed"]);
+    const abandoned = await uploadsOfProject();
     await expect.poll(() => listKeys(`staging/${abandoned[0]!.id}/`)).toEqual([]);
   });
 
