@@ -120,6 +120,10 @@ export async function claimChunk(db: Database, renderId: string, index: number, 
 /** Marks a chunk done and refreshes spp_done; returns how many chunks are still not done. */
 export async function completeChunk(db: Database, renderId: string, index: number, objectKey: string, worker: string): Promise<number> {
   return db.transaction(async (tx) => {
+    // Lock the render row before any chunk row, the order claimChunk and cancelPoolRender take: chunk then
+    // render here against render then chunks there deadlocked a cancel arriving as a chunk finished (seen as a
+    // 500 from DELETE /api/v1/renders/:id once chunks rendered faster).
+    await tx.select({ id: renders.id }).from(renders).where(eq(renders.id, renderId)).for("update");
     await tx
       .update(renderChunks)
       .set({ status: "done", objectKey, worker, updatedAt: new Date() })

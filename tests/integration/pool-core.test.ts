@@ -171,6 +171,38 @@ describe("pool chunks and merge", () => {
     expect(await cancelPoolRender(db(), render.id)).toBe(false);
   });
 
+  it("a cancel racing chunk completions never deadlocks: every call returns and the render ends cancelled", async () => {
+    // Both transactions touch the render row and chunk rows; taken in opposite orders they deadlock, and
+    // PostgreSQL then aborts one of them (a 500 from the cancel route). Twenty rounds of eight chunks
+    // finishing while a cancel runs: with the opposite orders four of the nine calls failed in the first round.
+    const { cancelPoolRender, completeChunk, claimChunk } = await import("~/models/render-job.server");
+    for (let round = 0; round < 20; round++) {
+      const render = await createPoolRender(db(), {
+        projectId: ctx.project.id,
+        sceneId: ctx.scene.id,
+        versionId: ctx.version.id,
+        spp: 16,
+        width: 20,
+        height: 12,
+        seed: 17,
+        integrator: "path",
+        tracerVersion: TRACER_VERSION,
+        title: "",
+        createdBy: ctx.user.id,
+        continuedFromId: null,
+        chunks: planChunks(0, 16, 2),
+      });
+      for (let i = 0; i < 8; i++) await claimChunk(db(), render.id, i, "w-race");
+      const results = await Promise.allSettled([
+        ...Array.from({ length: 8 }, (_, i) => completeChunk(db(), render.id, i, `tests/race/${render.id}/${i}`, "w-race")),
+        cancelPoolRender(db(), render.id),
+      ]);
+      const failures = results.filter((r) => r.status === "rejected").map((r) => String((r as PromiseRejectedResult).reason));
+      expect(failures, `round ${round}`).toEqual([]);
+      expect((await getPoolRender(db(), render.id))!.status).toBe("cancelled");
+    }
+  });
+
   it("refuses to continue from state that does not hold exactly the passes its render claims", async () => {
     const size = { width: 20, height: 12, seed: 17 };
     const preview = await renderPasses(compiledFor(ctx.doc, size), 0, 3);
