@@ -63,6 +63,7 @@ export class SampleStream {
   private dim = 0;
   private block = -1;
   private readonly words = new Uint32Array(4);
+  private readonly single = new Float64Array(1);
 
   start(seed: number, pixel: number, pass: number): void {
     this.seed = seed | 0;
@@ -76,19 +77,15 @@ export class SampleStream {
     this.dim = dim;
   }
 
+  /** Dimension d in [0, 1), then advances (for tests and tools; the render loop uses nextInto). */
   next(): number {
-    const d = this.dim++;
-    const b = d >>> 2;
-    if (b !== this.block) {
-      pcg4d(this.pixel, this.pass, b, this.seed, this.words);
-      this.block = b;
-    }
-    return this.words[d & 3] * TWO_NEG_32;
+    this.nextInto(this.single, 0);
+    return this.single[0];
   }
 
   /**
    * Writes dimension d to out[at] and advances: the form the render loop uses, since a double returned
-   * from a call V8 does not inline is boxed on the heap (next() is for tests and tools).
+   * from a call V8 does not inline is boxed on the heap.
    */
   nextInto(out: Float64Array, at: number): void {
     const d = this.dim++;
