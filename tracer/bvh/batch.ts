@@ -9,7 +9,8 @@
  * are written as float32, exact up to 2^24 triangles (far above the scene limits).
  */
 import { buildBvhConsuming, type BuildBvhOptions } from "./build";
-import { closestHitStream, collapseToWide } from "./stream";
+import { closestHitStream } from "./stream";
+import { collapseToWide } from "./wide";
 import { closestHitBatch, createTraversalScratch, type TriangleBvh } from "./traverse";
 
 export type { TriangleBvh } from "./traverse";

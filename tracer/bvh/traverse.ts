@@ -15,7 +15,7 @@
  * double-sided.
  */
 import { TRAVERSAL_STACK_SIZE, type Bvh } from "./layout";
-import type { WideBvh } from "./stream";
+import type { WideBvh } from "./wide";
 
 export type TriangleBvh = {
   bvh: Bvh;

@@ -2,7 +2,7 @@ import { describe, expect, it } from "vitest";
 import { Ray, Vector3 } from "three";
 import { buildTriangleBvh, intersectRays } from "../../../tracer/bvh/batch";
 import { anyHit, closestHit, type TriangleBvh } from "../../../tracer/bvh/traverse";
-import { collapseToWide, WIDE_WORDS } from "../../../tracer/bvh/stream";
+import { collapseToWide, WIDE_WORDS } from "../../../tracer/bvh/wide";
 import { bounceRays, loadBunny, makeRandom, sphereRays } from "../../bench/meshes";
 
 const one = (positions: number[], indices: number[]) => buildTriangleBvh(new Float32Array(positions), new Uint32Array(indices));
