@@ -8,7 +8,7 @@
  * single-threaded per module instance.
  */
 let order = new Uint32Array(0), orderTmp = new Uint32Array(0), keys = new Uint32Array(0), keysTmp = new Uint32Array(0);
-const counts = new Int32Array(2048);
+const counts = new Int32Array(4096);
 const originBox = new Float64Array(6);
 
 function ensureCapacity(n: number): void {
@@ -33,10 +33,10 @@ export function sortRays(rays: Float32Array, n: number): { order: Uint32Array; o
   ensureCapacity(n);
   originBounds(rays, n, originBox);
   rayKeys(rays, n, originBox, keys);
-  identityOrder(order, n);
   // Least-significant-digit radix sort of the 21-bit keys, 11 bits per pass (2 passes end in `order`).
-  radixPass(keys, order, keysTmp, orderTmp, n, 0, counts);
-  radixPass(keysTmp, orderTmp, keys, order, n, 11, counts);
+  digitCounts(keys, n, counts);
+  firstPass(keys, keysTmp, orderTmp, n, counts);
+  secondPass(keysTmp, orderTmp, keys, order, n, counts);
   keyOctants(keys, n);
   return { order, octants: keys };
 }
@@ -74,9 +74,12 @@ function rayKeys(rays: Float32Array, n: number, box: Float64Array, out: Uint32Ar
   const sx = ex > 0 && ex < Infinity ? 63.99 / ex : 0, sy = ey > 0 && ey < Infinity ? 63.99 / ey : 0, sz = ez > 0 && ez < Infinity ? 63.99 / ez : 0;
   for (let i = 0; i < n; i++) {
     const r = i * 8;
-    const qx = ((rays[r]! - x0) * sx) & 63, qy = ((rays[r + 1]! - y0) * sy) & 63, qz = ((rays[r + 2]! - z0) * sz) & 63;
-    const octant = (rays[r + 3]! < 0 ? 1 : 0) | (rays[r + 4]! < 0 ? 2 : 0) | (rays[r + 5]! < 0 ? 4 : 0);
-    out[i] = (octant << 18) | spread6(qx) | (spread6(qy) << 1) | (spread6(qz) << 2);
+    // `| 0` then `& 63` is the same ToInt32 as `& 63` alone, and the sign bits come from comparisons
+    // instead of conditional expressions: no branch on the incoherent directions (about half the
+    // time of the conditional form).
+    const qx = ((rays[r]! - x0) * sx) | 0, qy = ((rays[r + 1]! - y0) * sy) | 0, qz = ((rays[r + 2]! - z0) * sz) | 0;
+    const octant = +(rays[r + 3]! < 0) | (+(rays[r + 4]! < 0) << 1) | (+(rays[r + 5]! < 0) << 2);
+    out[i] = (octant << 18) | spread6(qx & 63) | (spread6(qy & 63) << 1) | (spread6(qz & 63) << 2);
   }
 }
 
@@ -85,14 +88,37 @@ function keyOctants(k: Uint32Array, n: number): void {
   for (let i = 0; i < n; i++) k[i] = k[i]! >>> 18;
 }
 
-/** One stable counting-sort pass on 11 bits of the key starting at `shift`. */
-function radixPass(keyIn: Uint32Array, idxIn: Uint32Array, keyOut: Uint32Array, idxOut: Uint32Array, n: number, shift: number, count: Int32Array): void {
+/**
+ * Both digits' counts in one read of the keys, turned into start offsets: count[0..2048) for bits
+ * 0..10, count[2048..4096) for bits 11..21.
+ */
+function digitCounts(k: Uint32Array, n: number, count: Int32Array): void {
   count.fill(0);
-  for (let i = 0; i < n; i++) count[(keyIn[i]! >>> shift) & 2047]++;
-  let sum = 0;
-  for (let b = 0; b < 2048; b++) { const c = count[b]!; count[b] = sum; sum += c; }
   for (let i = 0; i < n; i++) {
-    const k = keyIn[i]!, d = count[(k >>> shift) & 2047]++;
+    const key = k[i]!;
+    count[key & 2047]++;
+    count[2048 + (key >>> 11)]++;
+  }
+  let low = 0, high = 0;
+  for (let b = 0; b < 2048; b++) {
+    const a = count[b]!, c = count[2048 + b]!;
+    count[b] = low; count[2048 + b] = high;
+    low += a; high += c;
+  }
+}
+
+/** Stable counting-sort pass on bits 0..10; the ray order starts as the identity, so it is i. */
+function firstPass(keyIn: Uint32Array, keyOut: Uint32Array, idxOut: Uint32Array, n: number, count: Int32Array): void {
+  for (let i = 0; i < n; i++) {
+    const k = keyIn[i]!, d = count[k & 2047]++;
+    keyOut[d] = k; idxOut[d] = i;
+  }
+}
+
+/** Stable counting-sort pass on bits 11..21. */
+function secondPass(keyIn: Uint32Array, idxIn: Uint32Array, keyOut: Uint32Array, idxOut: Uint32Array, n: number, count: Int32Array): void {
+  for (let i = 0; i < n; i++) {
+    const k = keyIn[i]!, d = count[2048 + (k >>> 11)]++;
     keyOut[d] = k; idxOut[d] = idxIn[i]!;
   }
 }
