@@ -34,17 +34,32 @@ export type WideBvh = {
 /** Bits 0..23 of words 28..31: a leaf child's triangle count. */
 export const COUNT_MASK = 0xffffff;
 
-// Collapse scratch: the binary subtree expanded into one wide node (at most 3 expansions, 7 nodes).
-const expNode = new Int32Array(8), expLeft = new Int32Array(8), expSlot = new Int32Array(8);
-/** Half surface area of an expansion node, or −1 for a leaf (never expanded). */
-const expArea = new Float64Array(8);
-const kidExp = new Int32Array(4), dfs = new Int32Array(8), visit = new Int32Array(4);
+// Collapse scratch, one entry per child of the wide node being filled: its binary node, the half
+// surface area of an interior one (−1 for a leaf, never expanded), and its path below the wide
+// node's binary node: one bit per level (0 = left, MSB = first level, padded with zeros to 3).
+const kidNode = new Int32Array(4), kidPath = new Int32Array(4), kidDepth = new Int32Array(4);
+/**
+ * Path bits whose binary node splits on x (flipped for rays with negative x), and on y. Bits past
+ * the end of a path may be set too: two children first differ at a bit within both paths.
+ */
+const kidFlipX = new Int32Array(4), kidFlipY = new Int32Array(4);
+const kidArea = new Float64Array(4);
+/** Set bits of a byte. */
+const SET_BITS = new Uint8Array(256);
+for (let i = 1; i < 256; i++) SET_BITS[i] = SET_BITS[i >> 1]! + (i & 1);
 
 /**
  * Collapses the binary BVH into a 4-wide one: each wide node takes a binary interior node's
  * children and repeatedly replaces its largest-area interior child by that child's two children
  * until it holds four (a common practice for wide BVHs). Leaves stay as they are, so triangle
  * slots and `primIndices` are shared with the binary tree.
+ *
+ * The visiting order for an octant is the depth-first order through the expanded binary nodes,
+ * near side first. That equals sorting the children by their paths with each level's bit flipped
+ * where the ray's direction is negative on that level's split axis (no path is a prefix of
+ * another, so zero padding keeps the keys distinct). Ranking four 3-bit keys instead of a stack
+ * walk per octant, the six bounds copied unrolled, measured 0.68× the collapse time on the 3.7k and
+ * 59k bunnies (same output; old and new code interleaved in one process).
  */
 export function collapseToWide(bvh: Bvh): WideBvh {
   const bn = bvh.nodes, bw = bvh.words;
@@ -61,27 +76,33 @@ export function collapseToWide(bvh: Bvh): WideBvh {
     const b = workBinary[work]!, w = workWide[work]!, depth = workDepth[work]!;
     if (depth > maxDepth) maxDepth = depth;
     const o = w * WIDE_WORDS;
-    // Expansion tree rooted at b; kidExp lists the expansion nodes that became children.
-    expNode[0] = b; expLeft[0] = -1;
-    let expCount = 1, kids = 0;
+    let kids = 0;
     if (empty) kids = 0;
-    else if (bw[b * 8 + 7]! >>> 2 !== 0) { kidExp[0] = 0; kids = 1; } // a leaf root
-    else {
-      expand(bn, bw, 0, expCount); expCount += 2;
-      kidExp[0] = 1; kidExp[1] = 2; kids = 2;
+    else if (bw[b * 8 + 7]! >>> 2 !== 0) { // a leaf root
+      kidNode[0] = b; kidPath[0] = 0; kidDepth[0] = 0; kidFlipX[0] = kidFlipY[0] = 0; kids = 1;
+    } else {
+      const axis = bw[b * 8 + 7]! & 3;
+      const fx = axis === 0 ? 7 : 0, fy = axis === 1 ? 7 : 0;
+      setKid(bn, bw, 0, b + 1, 0, 1, fx, fy);
+      setKid(bn, bw, 1, bw[b * 8 + 6]!, 4, 1, fx, fy);
+      kids = 2;
       while (kids < 4) {
         let pick = -1, pickArea = -1;
         for (let i = 0; i < kids; i++) {
-          const a = expArea[kidExp[i]!]!;
+          const a = kidArea[i]!;
           if (a > pickArea) { pickArea = a; pick = i; }
         }
         if (pick < 0) break;
-        const x = kidExp[pick]!;
-        expand(bn, bw, x, expCount); expCount += 2;
-        kidExp[pick] = expLeft[x]!; kidExp[kids++] = expLeft[x]! + 1;
+        const n = kidNode[pick]!, path = kidPath[pick]!, level = kidDepth[pick]!, axis = bw[n * 8 + 7]! & 3;
+        // This level's bit and the ones below it (all zero) flip with the new split's axis.
+        const below = (8 >> level) - 1;
+        const fx = (kidFlipX[pick]! & ~below) | (axis === 0 ? below : 0);
+        const fy = (kidFlipY[pick]! & ~below) | (axis === 1 ? below : 0);
+        setKid(bn, bw, kids, bw[n * 8 + 6]!, path | (4 >> level), level + 1, fx, fy);
+        setKid(bn, bw, pick, n + 1, path, level + 1, fx, fy);
+        kids++;
       }
     }
-    for (let j = 0; j < kids; j++) expSlot[kidExp[j]!] = j;
     for (let j = 0; j < 4; j++) {
       const g = o + 24 + j;
       if (j >= kids) {
@@ -89,8 +110,10 @@ export function collapseToWide(bvh: Bvh): WideBvh {
         words[g] = 0; words[g + 4] = 0;
         continue;
       }
-      const n = expNode[kidExp[j]!]!;
-      for (let k = 0; k < 6; k++) nodes[o + k * 4 + j] = bn[n * 8 + k]!;
+      const n = kidNode[j]!;
+      const q = n * 8;
+      nodes[o + j] = bn[q]!; nodes[o + 4 + j] = bn[q + 1]!; nodes[o + 8 + j] = bn[q + 2]!;
+      nodes[o + 12 + j] = bn[q + 3]!; nodes[o + 16 + j] = bn[q + 4]!; nodes[o + 20 + j] = bn[q + 5]!;
       const leafCount = bw[n * 8 + 7]! >>> 2;
       if (leafCount !== 0) {
         if (leafCount > COUNT_MASK) throw new Error(`collapseToWide: a leaf holds ${leafCount} triangles`);
@@ -101,38 +124,40 @@ export function collapseToWide(bvh: Bvh): WideBvh {
         workBinary[work] = n; workWide[work] = child; workDepth[work] = depth + 1; work++;
       }
     }
-    // Visiting order for octants 0..3: depth-first through the expansion tree, near side first.
-    for (let octant = 0; octant < 4; octant++) {
-      let seen = 0, sp = 0;
-      if (kids > 0) dfs[sp++] = 0;
-      while (sp > 0) {
-        const x = dfs[--sp]!;
-        if (expLeft[x]! < 0) { visit[seen++] = expSlot[x]!; continue; }
-        const negative = (octant >> (bw[expNode[x]! * 8 + 7]! & 3)) & 1;
-        const near = expLeft[x]! + negative, far = expLeft[x]! + 1 - negative;
-        dfs[sp++] = far; dfs[sp++] = near;
-      }
-      // Empty slots last, so every octant's order is a permutation of 0..3.
-      for (let j = kids; j < 4; j++) visit[seen++] = j;
-      const order = visit[0]! | (visit[1]! << 2) | (visit[2]! << 4) | (visit[3]! << 6);
-      words[o + 28 + octant] = (words[o + 28 + octant]! | (order << 24)) >>> 0;
+    // Visiting order for octants 0..3 (their z bit is 0, so a z split never flips): a child's
+    // position is the number of smaller keys, read from a bit set of the keys in use.
+    let use0 = 0, use1 = 0, use2 = 0, use3 = 0;
+    for (let j = 0; j < kids; j++) {
+      const p = kidPath[j]!, x = kidFlipX[j]!, y = kidFlipY[j]!;
+      use0 |= 1 << p; use1 |= 1 << (p ^ x); use2 |= 1 << (p ^ y); use3 |= 1 << (p ^ x ^ y);
     }
+    let order0 = 0, order1 = 0, order2 = 0, order3 = 0;
+    for (let j = 0; j < 4; j++) {
+      if (j < kids) {
+        const p = kidPath[j]!, x = kidFlipX[j]!, y = kidFlipY[j]!;
+        order0 |= j << (2 * SET_BITS[use0 & ((1 << p) - 1)]!);
+        order1 |= j << (2 * SET_BITS[use1 & ((1 << (p ^ x)) - 1)]!);
+        order2 |= j << (2 * SET_BITS[use2 & ((1 << (p ^ y)) - 1)]!);
+        order3 |= j << (2 * SET_BITS[use3 & ((1 << (p ^ x ^ y)) - 1)]!);
+      } else {
+        const e = j << (2 * j); // empty slots last, in slot order
+        order0 |= e; order1 |= e; order2 |= e; order3 |= e;
+      }
+    }
+    words[o + 28] = (words[o + 28]! | (order0 << 24)) >>> 0;
+    words[o + 29] = (words[o + 29]! | (order1 << 24)) >>> 0;
+    words[o + 30] = (words[o + 30]! | (order2 << 24)) >>> 0;
+    words[o + 31] = (words[o + 31]! | (order3 << 24)) >>> 0;
   }
   const trimmed = buffer.slice(0, count * WIDE_WORDS * 4);
   return { nodes: new Float32Array(trimmed), words: new Uint32Array(trimmed), nodeCount: count, depth: maxDepth };
 }
 
-/** Adds the binary children of expansion node x as expansion nodes at..at+1 (left, right). */
-function expand(bn: Float32Array, bw: Uint32Array, x: number, at: number): void {
-  const n = expNode[x]!, left = n + 1, right = bw[n * 8 + 6]!;
-  expLeft[x] = at;
-  expNode[at] = left; expLeft[at] = -1; expArea[at] = expansionArea(bn, bw, left);
-  expNode[at + 1] = right; expLeft[at + 1] = -1; expArea[at + 1] = expansionArea(bn, bw, right);
-}
-
-function expansionArea(bn: Float32Array, bw: Uint32Array, n: number): number {
-  if (bw[n * 8 + 7]! >>> 2 !== 0) return -1;
+/** Child slot j := binary node n with the given path, depth and flip masks. */
+function setKid(bn: Float32Array, bw: Uint32Array, j: number, n: number, path: number, level: number, flipX: number, flipY: number): void {
+  kidNode[j] = n; kidPath[j] = path; kidDepth[j] = level; kidFlipX[j] = flipX; kidFlipY[j] = flipY;
+  if (bw[n * 8 + 7]! >>> 2 !== 0) { kidArea[j] = -1; return; }
   const o = n * 8;
   const x = bn[o + 3]! - bn[o]!, y = bn[o + 4]! - bn[o + 1]!, z = bn[o + 5]! - bn[o + 2]!;
-  return x * y + y * z + z * x;
+  kidArea[j] = x * y + y * z + z * x;
 }

@@ -226,6 +226,59 @@ describe("4-wide stream traversal of large batches", () => {
     expect(wide.nodeCount).toBeLessThan(mesh.bvh.nodeCount / 3);
   });
 
+  it("orders each wide node's children near side first, as a depth-first walk of the binary tree would visit them", () => {
+    // Front-to-back child order of a collapsed wide BVH (common practice): for a ray whose direction
+    // is negative on a binary node's split axis, that node's right subtree comes first. The reference
+    // walks the binary tree itself, identifying nodes by the triangle slots they cover.
+    const bvh = mesh.bvh, wide = collapseToWide(bvh);
+    const range = new Map<string, number>(); // "first,end" of a binary node's slots -> node
+    const slotsOf = (node: number): [number, number] => {
+      const o = node * 8, count = bvh.words[o + 7]! >>> 2;
+      const r: [number, number] = count ? [bvh.words[o + 6]!, bvh.words[o + 6]! + count] : [slotsOf(node + 1)[0], slotsOf(bvh.words[o + 6]!)[1]];
+      range.set(r.join(), node);
+      return r;
+    };
+    slotsOf(0);
+    const wideSlots = (w: number): [number, number] => {
+      let lo = Infinity, hi = -Infinity;
+      for (let j = 0; j < 4; j++) {
+        const o = w * WIDE_WORDS, ref = wide.words[o + 24 + j]!, count = wide.words[o + 28 + j]! & 0xffffff;
+        if (Number.isNaN(wide.nodes[o + j]!)) continue;
+        const [a, b] = count ? [ref, ref + count] : wideSlots(ref);
+        lo = Math.min(lo, a); hi = Math.max(hi, b);
+      }
+      return [lo, hi];
+    };
+    let checked = 0;
+    for (let w = 0; w < wide.nodeCount; w++) {
+      const o = w * WIDE_WORDS;
+      const kidOf = new Map<number, number>(); // binary node -> slot
+      let kids = 0;
+      for (let j = 0; j < 4; j++) {
+        if (Number.isNaN(wide.nodes[o + j]!)) continue;
+        const ref = wide.words[o + 24 + j]!, count = wide.words[o + 28 + j]! & 0xffffff;
+        kidOf.set(range.get((count ? [ref, ref + count] : wideSlots(ref)).join())!, j);
+        kids++;
+      }
+      const top = range.get(wideSlots(w).join())!;
+      for (let octant = 0; octant < 4; octant++) {
+        const expected: number[] = [];
+        const visit = (node: number): void => {
+          if (kidOf.has(node)) { expected.push(kidOf.get(node)!); return; }
+          const q = node * 8, negative = (octant >> (bvh.words[q + 7]! & 3)) & 1;
+          const near = negative ? bvh.words[q + 6]! : node + 1, far = negative ? node + 1 : bvh.words[q + 6]!;
+          visit(near); visit(far);
+        };
+        visit(top);
+        for (let j = kids; j < 4; j++) expected.push(j);
+        const order = wide.words[o + 28 + octant]! >>> 24;
+        expect([0, 2, 4, 6].map((s) => (order >> s) & 3)).toEqual(expected);
+        checked++;
+      }
+    }
+    expect(checked).toBe(wide.nodeCount * 4);
+  });
+
   it("matches closestHit on axis-parallel rays, rays starting on or inside the mesh and empty intervals", () => {
     const rnd = makeRandom(41);
     const n = 2400, rays = new Float32Array(n * 8);
