@@ -166,6 +166,40 @@ describe("buildBvh", () => {
     expect(sah).toBeLessThan(sahCost(refit) / 5);
   });
 
+  it("gives every node exactly the union of its primitives' boxes, whatever the coordinates' magnitudes", () => {
+    // layout.ts promises exact float32 unions. The builder takes min(a, b) = b + (d − |d|)/2 only
+    // where that is exact (a − b of two float32 values fits a double's 53 bits when the magnitudes
+    // on an axis span under 2^28; IEEE 754 binary32/binary64 precisions), so the second input, whose
+    // tiny coordinates sit beside ones near 1, must come out just as exact.
+    const exactUnions = (bounds: Float32Array): void => {
+      const bvh = buildBvh(bounds);
+      checkTree(bvh, bounds);
+      const box = (node: number): number[] => {
+        const o = node * NODE_WORDS;
+        let b: number[];
+        if (isLeaf(bvh, node)) {
+          b = [Infinity, Infinity, Infinity, -Infinity, -Infinity, -Infinity];
+          const first = bvh.words[o + 6]!;
+          for (let k = first; k < first + primCount(bvh, node); k++) {
+            const p = bvh.primIndices[k]! * 6;
+            for (let a = 0; a < 3; a++) { b[a] = Math.min(b[a]!, bounds[p + a]!); b[a + 3] = Math.max(b[a + 3]!, bounds[p + 3 + a]!); }
+          }
+        } else {
+          const l = box(node + 1), r = box(rightChild(bvh, node));
+          b = l.map((x, k) => (k < 3 ? Math.min(x, r[k]!) : Math.max(x, r[k]!)));
+        }
+        expect(Array.from(bvh.nodes.subarray(o, o + 6))).toEqual(b);
+        return b;
+      };
+      box(0);
+    };
+    const bounds = randomBoxes(3000, 5);
+    exactUnions(bounds);
+    const tiny = bounds.slice();
+    for (let i = 0; i < tiny.length; i += 12) for (let k = 0; k < 3; k++) { tiny[i + k] *= 1e-12; tiny[i + 3 + k] *= 1e-12; }
+    exactUnions(tiny);
+  });
+
   it("gives an empty input a root box that nothing can hit", () => {
     const bvh = buildBvh(new Float32Array(0));
     expect(bvh.nodeCount).toBe(1);
