@@ -200,6 +200,21 @@ describe("buildBvh", () => {
     exactUnions(tiny);
   });
 
+  it("keeps small nodes whose primitives fill them as leaves and still splits small nodes of two far clusters", () => {
+    // SAH (Goldsmith & Salmon 1987; MacDonald & Booth 1990): a split costs Ct + (A_L·n_L + A_R·n_R)/A
+    // against a leaf's n. With Ct = 4 a node of 5 primitives splits only when its children are far
+    // smaller than itself, as for two tight clusters 10 apart (cost about 4.0 against 5).
+    const clusters = new Float32Array(5 * 6);
+    for (let i = 0; i < 5; i++) { const x = i < 2 ? 0 : 10, e = 0.01 * (i + 1); clusters.set([x, 0, 0, x + e, e, e], i * 6); }
+    const split = buildBvh(clusters, { traversalCost: 4 });
+    checkTree(split, clusters);
+    expect(split.nodeCount).toBe(3);
+    // Five unit boxes side by side: every split's children cover most of the node (leaf).
+    const row = new Float32Array(5 * 6);
+    for (let i = 0; i < 5; i++) row.set([i, 0, 0, i + 1, 1, 1], i * 6);
+    expect(buildBvh(row, { traversalCost: 4 }).nodeCount).toBe(1);
+  });
+
   it("gives an empty input a root box that nothing can hit", () => {
     const bvh = buildBvh(new Float32Array(0));
     expect(bvh.nodeCount).toBe(1);
