@@ -1,6 +1,7 @@
 import { describe, expect, it } from "vitest";
 import { buildTriangleBvh, intersectRays } from "../../../tracer/bvh/batch";
 import { sortRays } from "../../../tracer/bvh/ray-order";
+import { closestHitStream } from "../../../tracer/bvh/stream";
 import { closestHit } from "../../../tracer/bvh/traverse";
 import { loadBunny, makeRandom, sphereRays } from "../../bench/meshes";
 
@@ -93,5 +94,46 @@ describe("stream traversal of chunks whose rays all start before the mesh's box"
       rays.set([-0.02 + 0.02 * rnd(), 0.1 + 0.02 * rnd(), 0.02 * rnd(), rnd() - 0.5, rnd() - 0.5, rnd() - 0.5, 0.01, Infinity], i * 8);
     }
     expect(expectSameAsClosestHit(rays)).toBeGreaterThan(1000);
+  });
+});
+
+describe("stream reading a sorted copy of the rays", () => {
+  const bunny = loadBunny();
+  const mesh = buildTriangleBvh(bunny.positions, bunny.indices);
+
+  it("sortRays copies each ray's eight floats to its sorted position", () => {
+    const rays = sphereRays(bunny.positions, 3000, 41);
+    for (let i = 0; i < 3000; i += 9) { rays[i * 8 + 6] = 0.01 * (i % 4); rays[i * 8 + 7] = 1 + i; } // distinct tmin/tmax to see them move
+    const { order, rays: sorted } = sortRays(rays, 3000, true);
+    expect(sorted).not.toBeNull();
+    for (let k = 0; k < 3000; k++) {
+      for (let c = 0; c < 8; c++) expect(sorted![k * 8 + c]).toBe(rays[order[k]! * 8 + c]);
+    }
+    expect(sortRays(rays, 10).rays).toBeNull();
+  });
+
+  it("gives every ray the same result as closestHit, written at the ray's own index", () => {
+    // Sphere rays (some ending early) plus rays starting inside the bunny, so both box-test forms run.
+    const rays = sphereRays(bunny.positions, 5000, 42);
+    const rnd = makeRandom(43);
+    const box = Array.from(mesh.bvh.nodes.subarray(0, 6));
+    for (let i = 0; i < 5000; i++) {
+      if (i % 11 === 3) rays[i * 8 + 7] = 0.3;
+      if (i % 13 === 5) {
+        const o = [0, 1, 2].map((k) => box[k]! + (box[k + 3]! - box[k]!) * rnd());
+        rays.set([o[0]!, o[1]!, o[2]!, rnd() - 0.5, rnd() - 0.5, rnd() - 0.5, 0, Infinity], i * 8);
+      }
+    }
+    const n = 5000, out = new Float32Array(n * 4), one = new Float64Array(4);
+    const sorted = sortRays(rays, n, true);
+    const hits = closestHitStream(mesh, rays, sorted.order, sorted.octants, n, out, sorted.rays);
+    let expectedHits = 0;
+    for (let i = 0; i < n; i++) {
+      const r = rays.subarray(i * 8, i * 8 + 8);
+      if (closestHit(mesh, r[0]!, r[1]!, r[2]!, r[3]!, r[4]!, r[5]!, r[6]!, r[7]!, one, 0)) expectedHits++;
+      expect([out[i * 4], out[i * 4 + 1], out[i * 4 + 2], out[i * 4 + 3]]).toEqual(Array.from(one, (x) => Math.fround(x)));
+    }
+    expect(hits).toBe(expectedHits);
+    expect(hits).toBeGreaterThan(2000);
   });
 });
