@@ -225,6 +225,8 @@ let warmed = false;
  * Runs every path of the builder once on a small input. Without it, the first large build has V8
  * compile the binning loop on-stack before the code after the loop ever ran; that code then lacks
  * type feedback and deoptimises on every later call (measured: ~1000 deopts and 5× slower builds).
+ * The consuming call with a traversal cost is the batch query's; without it the first optimised
+ * buildInto saw other input shapes and deoptimised ("wrong map") in the second or third build.
  */
 function warmUp(): void {
   warmed = true;
@@ -243,6 +245,8 @@ function warmUp(): void {
   for (let r = 0; r < 3; r++) {
     buildBvh(b, { leafSize: 2 });
     buildBvh(b, { leafSize: 2, allAxes: true });
+    buildBvhConsuming(b.slice(), { traversalCost: 4 });
+    buildBvh(b);
   }
   buildBvh(new Float32Array(n * 6), { leafSize: 2 }); // all boxes equal: middle splits
   // One huge primitive the sample skips (index 1): first around a cluster, so every centroid
