@@ -29,8 +29,10 @@ export function buildTriangleBvh(positions: Float32Array, indices: Uint32Array, 
   const bounds = new Float32Array(triCount * 6);
   triangleBounds(positions, indices, bounds);
   // Leaves of up to ~4 triangles: measured as fast as the default tree for closest-hit rays on the
-  // bunny meshes while halving the node count (less memory, faster builds).
-  const bvh = buildBvhConsuming(bounds, { traversalCost: 4, ...options });
+  // bunny meshes while halving the node count (less memory, faster builds). Nodes of up to 2·Ct = 8
+  // triangles become leaves without evaluating splits: build 0.89–0.91× on the 3.7k/59k/941k bunnies,
+  // SAH cost +0.06% at this traversal cost, closest-hit rays per CPU second 0.98–1.06× (noise).
+  const bvh = buildBvhConsuming(bounds, { traversalCost: 4, leafWithoutSplitAtMost: 8, ...options });
   const tris = new Float32Array(triCount * 9);
   gatherTriangles(positions, indices, bvh.primIndices, tris);
   return { bvh, wide: collapseToWide(bvh), tris, triCount };

@@ -59,6 +59,11 @@ export type BuildBvhOptions = {
   leafSize?: number;
   /** Centroid bins per axis for large nodes (default 12, clamped to 4..64). */
   bins?: number;
+  /**
+   * Nodes of at most this many primitives (and at most leafSize) become leaves without evaluating
+   * any split (default: the traversal cost, below which no split can pay).
+   */
+  leafWithoutSplitAtMost?: number;
   /** Cost of one node visit relative to one primitive test (default 2). */
   traversalCost?: number;
   /** Bin all three axes instead of only the longest one (default false): slower builds, slightly better trees. */
@@ -96,6 +101,7 @@ function buildInto(bounds: Float32Array, consume: boolean, options: BuildBvhOpti
   const B = Math.max(4, Math.min(64, Math.floor(options.bins ?? 12)));
   const Ct = options.traversalCost ?? 2;
   const allAxes = options.allAxes ?? false;
+  const direct = options.leafWithoutSplitAtMost ?? Ct;
 
   const ids = identity(n);
   if (n === 0) {
@@ -149,8 +155,9 @@ function buildInto(bounds: Float32Array, consume: boolean, options: BuildBvhOpti
 
     // -1: leaf, -2: split at the middle of the range, >= 0: split after this bin on `axis`.
     let split = -1, axis = 0, keyed = false, sampled = false;
-    // Splitting costs at least Ct, so nodes of at most Ct primitives (and at most leafSize) stay leaves unbinned.
-    if (count > 1 && depth < MAX_DEPTH && !(count <= Ct && count <= leafSize) &&
+    // Splitting costs at least Ct, so nodes of at most Ct primitives (and at most leafSize) stay leaves
+    // unbinned; a caller may raise that count (leafWithoutSplitAtMost) to trade a little tree quality for time.
+    if (count > 1 && depth < MAX_DEPTH && !(count <= direct && count <= leafSize) &&
         !(count <= leafSize && count <= Ct + 1 && boxAreaSum(box, start, end) >= (count - Ct) * halfArea(cur))) {
       const bins = count < B ? (count < 4 ? 4 : count) : B;
       if (allAxes) binAll(s, start, end, bins);
