@@ -35,10 +35,11 @@
  *   every list read converted a double to an index (0.97–1.08×, mean 1.02× over the three bunnies
  *   and both ray sets).
  * - Chunks whose rays all meet the root box no earlier than their tmin (rays from outside the
- *   mesh, e.g. the sphere set) use box tests without the three tmin comparisons per box (9 instead
- *   of 12; filter4Outside and traceRaySubtreeOutside say why they cannot change a result):
- *   1.08–1.11× on the sphere rays of the 3.7k, 59k and 941k bunnies; bounce rays start on the
- *   surface, inside the box, and keep the full test (0.98–1.05×, noise).
+ *   mesh, e.g. the sphere set) use four-child box tests without the three tmin comparisons per box
+ *   (9 instead of 12; filter4Outside says why that cannot change a result): 1.08–1.11× on the
+ *   sphere rays of the 3.7k, 59k and 941k bunnies; bounce rays start on the surface, inside the
+ *   box, and keep the full test (0.98–1.05×, noise). A copy of the single-ray loop without them
+ *   measured 0.98–1.03× (noise) against the one loop with all twelve, so there is only one.
  * - Given a copy of the rays in sorted order (sortRays(…, true)), the records are filled reading it
  *   in sequence instead of gathering each ray through the order: 1.02–1.07× on the three bunnies,
  *   the copy included.
@@ -209,8 +210,7 @@ function traceChunk(tb: TriangleBvh, octant: number, m: number): void {
       }
       node = ref;
       if (count <= SINGLE_RAY_MAX) {
-        if (outside !== 0) for (let k = from; k < from + count; k++) traceRaySubtreeOutside(nodes, words, tris, node, lists[k]!, nxo, nyo, nzo, orderWord, reversed);
-        else for (let k = from; k < from + count; k++) traceRaySubtree(nodes, words, tris, node, lists[k]!, nxo, nyo, nzo, orderWord, reversed);
+        for (let k = from; k < from + count; k++) traceRaySubtree(nodes, words, tris, node, lists[k]!, nxo, nyo, nzo, orderWord, reversed);
         continue;
       }
     }
@@ -421,63 +421,6 @@ function traceRaySubtree(N: Float32Array, words: Uint32Array, tris: Float32Array
     {
       const nx = N[o + 3 + nxo]! * ix - oxi, ny = N[o + 3 + nyo]! * iy - oyi, nz = N[o + 3 + nzo]! * iz - ozi, fx = N[o + 3 + fxo]! * ix - oxi, fy = N[o + 3 + fyo]! * iy - oyi, fz = N[o + 3 + fzo]! * iz - ozi;
       mask |= ((+(nx <= fy) & +(nx <= fz) & +(ny <= fx) & +(ny <= fz) & +(nz <= fx) & +(nz <= fy)) & (+(nx <= tf) & +(ny <= tf) & +(nz <= tf) & +(tn <= fx) & +(tn <= fy) & +(tn <= fz))) << 3;
-    }
-    // Empty slots have NaN bounds, so they never set their bit.
-    const visitOrder = words[o + orderWord]! >>> 24;
-    for (let k = 0; k < 4; k++) {
-      const j = (visitOrder >>> (reversed ? 2 * k : 6 - 2 * k)) & 3;
-      S[sp] = o + 24 + j; sp += (mask >>> j) & 1;
-    }
-    node = -1;
-    while (sp > 0) {
-      const slot = S[--sp]!;
-      const ref = words[slot]!, leafCount = words[slot + 4]! & COUNT_MASK;
-      if (leafCount === 0) { node = ref; break; }
-      const last = ref + leafCount;
-      for (let t = ref; t < last; t++) {
-        const q9 = t * 9;
-        const e1x = tris[q9 + 3]!, e1y = tris[q9 + 4]!, e1z = tris[q9 + 5]!, e2x = tris[q9 + 6]!, e2y = tris[q9 + 7]!, e2z = tris[q9 + 8]!;
-        const px = dy * e2z - dz * e2y, py = dz * e2x - dx * e2z, pz = dx * e2y - dy * e2x;
-        const inv = 1 / (e1x * px + e1y * py + e1z * pz);
-        const sx = ox - tris[q9]!, sy = oy - tris[q9 + 1]!, sz = oz - tris[q9 + 2]!;
-        const u = (sx * px + sy * py + sz * pz) * inv;
-        const qx = sy * e1z - sz * e1y, qy = sz * e1x - sx * e1z, qz = sx * e1y - sy * e1x;
-        const v = (dx * qx + dy * qy + dz * qz) * inv;
-        const hit = (e2x * qx + e2y * qy + e2z * qz) * inv;
-        if ((+(u >= 0) & +(u <= 1) & +(v >= 0) & +(u + v <= 1) & +(hit > tn) & +(hit < tf)) !== 0) { tf = hit; bu = u; bv = v; bestSlot = t; }
-      }
-    }
-  }
-  R[(q + 7) | 0] = tf; R[(q + 14) | 0] = bu; R[(q + 15) | 0] = bv; slots[r] = bestSlot;
-}
-
-/** traceRaySubtree without the tmin comparisons of the box tests, for allOutside chunks (see filter4Outside). */
-function traceRaySubtreeOutside(N: Float32Array, words: Uint32Array, tris: Float32Array, node0: number, r: number, nxo: number, nyo: number, nzo: number, orderWord: number, reversed: boolean): void {
-  const R = records, S = rayStack, q = r << 4;
-  const ix = R[q]!, iy = R[(q + 1) | 0]!, iz = R[(q + 2) | 0]!, oxi = R[(q + 3) | 0]!, oyi = R[(q + 4) | 0]!, ozi = R[(q + 5) | 0]!;
-  const tn = R[(q + 6) | 0]!;
-  const ox = R[(q + 8) | 0]!, oy = R[(q + 9) | 0]!, oz = R[(q + 10) | 0]!, dx = R[(q + 11) | 0]!, dy = R[(q + 12) | 0]!, dz = R[(q + 13) | 0]!;
-  let tf = R[(q + 7) | 0]!, bu = R[(q + 14) | 0]!, bv = R[(q + 15) | 0]!, bestSlot = slots[r]!;
-  const fxo = 12 - nxo, fyo = 20 - nyo, fzo = 28 - nzo;
-  let sp = 0, node = node0;
-  while (node >= 0) {
-    const o = node * WIDE_WORDS;
-    let mask = 0;
-    {
-      const nx = N[o + nxo]! * ix - oxi, ny = N[o + nyo]! * iy - oyi, nz = N[o + nzo]! * iz - ozi, fx = N[o + fxo]! * ix - oxi, fy = N[o + fyo]! * iy - oyi, fz = N[o + fzo]! * iz - ozi;
-      mask = (+(nx <= fy) & +(nx <= fz) & +(ny <= fx) & +(ny <= fz) & +(nz <= fx) & +(nz <= fy)) & (+(nx <= tf) & +(ny <= tf) & +(nz <= tf));
-    }
-    {
-      const nx = N[o + 1 + nxo]! * ix - oxi, ny = N[o + 1 + nyo]! * iy - oyi, nz = N[o + 1 + nzo]! * iz - ozi, fx = N[o + 1 + fxo]! * ix - oxi, fy = N[o + 1 + fyo]! * iy - oyi, fz = N[o + 1 + fzo]! * iz - ozi;
-      mask |= ((+(nx <= fy) & +(nx <= fz) & +(ny <= fx) & +(ny <= fz) & +(nz <= fx) & +(nz <= fy)) & (+(nx <= tf) & +(ny <= tf) & +(nz <= tf))) << 1;
-    }
-    {
-      const nx = N[o + 2 + nxo]! * ix - oxi, ny = N[o + 2 + nyo]! * iy - oyi, nz = N[o + 2 + nzo]! * iz - ozi, fx = N[o + 2 + fxo]! * ix - oxi, fy = N[o + 2 + fyo]! * iy - oyi, fz = N[o + 2 + fzo]! * iz - ozi;
-      mask |= ((+(nx <= fy) & +(nx <= fz) & +(ny <= fx) & +(ny <= fz) & +(nz <= fx) & +(nz <= fy)) & (+(nx <= tf) & +(ny <= tf) & +(nz <= tf))) << 2;
-    }
-    {
-      const nx = N[o + 3 + nxo]! * ix - oxi, ny = N[o + 3 + nyo]! * iy - oyi, nz = N[o + 3 + nzo]! * iz - ozi, fx = N[o + 3 + fxo]! * ix - oxi, fy = N[o + 3 + fyo]! * iy - oyi, fz = N[o + 3 + fzo]! * iz - ozi;
-      mask |= ((+(nx <= fy) & +(nx <= fz) & +(ny <= fx) & +(ny <= fz) & +(nz <= fx) & +(nz <= fy)) & (+(nx <= tf) & +(ny <= tf) & +(nz <= tf))) << 3;
     }
     // Empty slots have NaN bounds, so they never set their bit.
     const visitOrder = words[o + orderWord]! >>> 24;
