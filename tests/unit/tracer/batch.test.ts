@@ -4,6 +4,7 @@ import { buildTriangleBvh, intersectRays } from "../../../tracer/bvh/batch";
 import { anyHit, closestHit, type TriangleBvh } from "../../../tracer/bvh/traverse";
 import { collapseToWide, WIDE_WORDS } from "../../../tracer/bvh/wide";
 import { bounceRays, loadBunny, makeRandom, sphereRays } from "../../bench/meshes";
+import { expectSameAsClosestHit } from "../../support/closest-hit-reference";
 
 const one = (positions: number[], indices: number[]) => buildTriangleBvh(new Float32Array(positions), new Uint32Array(indices));
 
@@ -145,15 +146,7 @@ describe("intersectRays on the Stanford bunny", () => {
     // Per-ray closestHit (checked against brute force above) is the reference for every slot.
     const rays = sphereRays(bunny.positions, 3000, 21);
     for (let i = 0; i < 3000; i += 7) rays[i * 8 + 7] = 0.3; // some rays end early: misses at known slots
-    const out = new Float32Array(3000 * 4), one = new Float64Array(4);
-    const hits = intersectRays(mesh, rays, out);
-    let expectedHits = 0;
-    for (let i = 0; i < 3000; i++) {
-      const r = rays.subarray(i * 8, i * 8 + 8);
-      if (closestHit(mesh, r[0]!, r[1]!, r[2]!, r[3]!, r[4]!, r[5]!, r[6]!, r[7]!, one, 0)) expectedHits++;
-      expect([out[i * 4], out[i * 4 + 1], out[i * 4 + 2], out[i * 4 + 3]]).toEqual(Array.from(one, (x) => Math.fround(x)));
-    }
-    expect(hits).toBe(expectedHits);
+    expectSameAsClosestHit(mesh, rays);
   });
 
   it("anyHit agrees with closestHit inside and beyond the hit distance", () => {
@@ -171,21 +164,6 @@ describe("intersectRays on the Stanford bunny", () => {
 describe("4-wide stream traversal of large batches", () => {
   const bunny = loadBunny();
   const mesh = buildTriangleBvh(bunny.positions, bunny.indices);
-
-  /** Every slot of intersectRays' output equals per-ray closestHit (checked against brute force above). */
-  function expectSameAsClosestHit(m: TriangleBvh, rays: Float32Array): number {
-    const n = rays.length / 8;
-    const out = new Float32Array(n * 4), one = new Float64Array(4);
-    const hits = intersectRays(m, rays, out);
-    let expectedHits = 0;
-    for (let i = 0; i < n; i++) {
-      const r = rays.subarray(i * 8, i * 8 + 8);
-      if (closestHit(m, r[0]!, r[1]!, r[2]!, r[3]!, r[4]!, r[5]!, r[6]!, r[7]!, one, 0)) expectedHits++;
-      expect([out[i * 4], out[i * 4 + 1], out[i * 4 + 2], out[i * 4 + 3]]).toEqual(Array.from(one, (x) => Math.fround(x)));
-    }
-    expect(hits).toBe(expectedHits);
-    return hits;
-  }
 
   it("collapses the binary tree into child boxes that bound their subtrees and cover every triangle once", () => {
     // Bounding-volume invariant of any BVH (common practice): a child's box holds every triangle

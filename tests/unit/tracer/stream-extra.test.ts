@@ -1,9 +1,9 @@
 import { describe, expect, it } from "vitest";
-import { buildTriangleBvh, intersectRays } from "../../../tracer/bvh/batch";
+import { buildTriangleBvh } from "../../../tracer/bvh/batch";
 import { sortRays } from "../../../tracer/bvh/ray-order";
 import { closestHitStream } from "../../../tracer/bvh/stream";
-import { closestHit } from "../../../tracer/bvh/traverse";
 import { loadBunny, makeRandom, sphereRays } from "../../bench/meshes";
+import { expectSameAsClosestHit } from "../../support/closest-hit-reference";
 
 /** Morton code (bit interleaving, common practice) written bit by bit, independent of ray-order.ts's shifts and masks. */
 function morton3(x: number, y: number, z: number): number {
@@ -41,21 +41,6 @@ describe("stream traversal of chunks whose rays all start before the mesh's box"
   const bunny = loadBunny();
   const mesh = buildTriangleBvh(bunny.positions, bunny.indices);
 
-  /** Every slot equals per-ray closestHit (the reference the batch tests check against brute force). */
-  function expectSameAsClosestHit(rays: Float32Array): number {
-    const n = rays.length / 8;
-    const out = new Float32Array(n * 4), one = new Float64Array(4);
-    const hits = intersectRays(mesh, rays, out);
-    let expectedHits = 0;
-    for (let i = 0; i < n; i++) {
-      const r = rays.subarray(i * 8, i * 8 + 8);
-      if (closestHit(mesh, r[0]!, r[1]!, r[2]!, r[3]!, r[4]!, r[5]!, r[6]!, r[7]!, one, 0)) expectedHits++;
-      expect([out[i * 4], out[i * 4 + 1], out[i * 4 + 2], out[i * 4 + 3]]).toEqual(Array.from(one, (x) => Math.fround(x)));
-    }
-    expect(hits).toBe(expectedHits);
-    return hits;
-  }
-
   it("matches closestHit with tmin before the box, and on the box's near face", () => {
     // Origins on a sphere around the bunny: every ray meets the root box (if at all) after tmin,
     // so the box tests may skip their tmin comparisons. Some rays get a tmin up to the middle of
@@ -65,7 +50,7 @@ describe("stream traversal of chunks whose rays all start before the mesh's box"
       if (i % 3 === 1) rays[i * 8 + 6] = 0.05 * ((i % 7) / 7);
       if (i % 5 === 2) rays[i * 8 + 7] = 0.25;
     }
-    expect(expectSameAsClosestHit(rays)).toBeGreaterThan(1500);
+    expect(expectSameAsClosestHit(mesh, rays)).toBeGreaterThan(1500);
   });
 
   it("matches closestHit when such rays are sparse enough to be traced one at a time below the top", () => {
@@ -81,7 +66,7 @@ describe("stream traversal of chunks whose rays all start before the mesh's box"
       const target = [0, 1, 2].map((k) => box[k]! + (box[k + 3]! - box[k]!) * rnd());
       rays.set([o[0]!, o[1]!, o[2]!, target[0]! - o[0]!, target[1]! - o[1]!, target[2]! - o[2]!, 0, Infinity], i * 8);
     }
-    expect(expectSameAsClosestHit(rays)).toBeGreaterThan(300);
+    expect(expectSameAsClosestHit(mesh, rays)).toBeGreaterThan(300);
   });
 
   it("keeps the tmin comparisons when one ray of the chunk starts inside the box", () => {
@@ -93,7 +78,7 @@ describe("stream traversal of chunks whose rays all start before the mesh's box"
     for (let i = 0; i < 3000; i += 50) {
       rays.set([-0.02 + 0.02 * rnd(), 0.1 + 0.02 * rnd(), 0.02 * rnd(), rnd() - 0.5, rnd() - 0.5, rnd() - 0.5, 0.01, Infinity], i * 8);
     }
-    expect(expectSameAsClosestHit(rays)).toBeGreaterThan(1000);
+    expect(expectSameAsClosestHit(mesh, rays)).toBeGreaterThan(1000);
   });
 });
 
@@ -124,16 +109,10 @@ describe("stream reading a sorted copy of the rays", () => {
         rays.set([o[0]!, o[1]!, o[2]!, rnd() - 0.5, rnd() - 0.5, rnd() - 0.5, 0, Infinity], i * 8);
       }
     }
-    const n = 5000, out = new Float32Array(n * 4), one = new Float64Array(4);
-    const sorted = sortRays(rays, n, true);
-    const hits = closestHitStream(mesh, rays, sorted.order, sorted.octants, n, out, sorted.rays);
-    let expectedHits = 0;
-    for (let i = 0; i < n; i++) {
-      const r = rays.subarray(i * 8, i * 8 + 8);
-      if (closestHit(mesh, r[0]!, r[1]!, r[2]!, r[3]!, r[4]!, r[5]!, r[6]!, r[7]!, one, 0)) expectedHits++;
-      expect([out[i * 4], out[i * 4 + 1], out[i * 4 + 2], out[i * 4 + 3]]).toEqual(Array.from(one, (x) => Math.fround(x)));
-    }
-    expect(hits).toBe(expectedHits);
+    const hits = expectSameAsClosestHit(mesh, rays, (out) => {
+      const sorted = sortRays(rays, 5000, true);
+      return closestHitStream(mesh, rays, sorted.order, sorted.octants, 5000, out, sorted.rays);
+    });
     expect(hits).toBeGreaterThan(2000);
   });
 });
