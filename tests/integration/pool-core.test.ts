@@ -70,6 +70,25 @@ async function setup() {
 beforeAll(async () => {
   ctx = await setup();
 });
+
+/** A pool render of the test scene at 20×12, seed 17 (the size every test here renders). */
+function poolRender(spp: number, chunks: ReturnType<typeof planChunks>, continuedFromId: string | null = null) {
+  return createPoolRender(db(), {
+    projectId: ctx.project.id,
+    sceneId: ctx.scene.id,
+    versionId: ctx.version.id,
+    spp,
+    width: 20,
+    height: 12,
+    seed: 17,
+    integrator: "path",
+    tracerVersion: TRACER_VERSION,
+    title: "",
+    createdBy: ctx.user.id,
+    continuedFromId,
+    chunks,
+  });
+}
 afterAll(async () => {
   await dbPool().end();
 });
@@ -77,19 +96,7 @@ afterAll(async () => {
 describe("pool chunks and merge", () => {
   it("merges chunks rendered in shuffled order to the same bits as one process", async () => {
     const size = { width: 20, height: 12, seed: 17 };
-    const render = await createPoolRender(db(), {
-      projectId: ctx.project.id,
-      sceneId: ctx.scene.id,
-      versionId: ctx.version.id,
-      spp: 9,
-      ...size,
-      integrator: "path",
-      tracerVersion: TRACER_VERSION,
-      title: "",
-      createdBy: ctx.user.id,
-      continuedFromId: null,
-      chunks: planChunks(0, 9, 4), // [0,4) [4,8) [8,9)
-    });
+    const render = await poolRender(9, planChunks(0, 9, 4)); // [0,4) [4,8) [8,9)
     const done: string[] = [];
     expect(await runChunk(deps("w-b", done), render.id, 2)).toBe("done");
     expect(await runChunk(deps("w-a", done), render.id, 0)).toBe("done");
@@ -120,19 +127,7 @@ describe("pool chunks and merge", () => {
     const compiled = compiledFor(ctx.doc, size);
     const preview = await renderPasses(compiled, 0, 4);
     const browser = await storedBrowserRender("state.bin", preview!, { claimedSpp: 4, size, withHash: true });
-    const render = await createPoolRender(db(), {
-      projectId: ctx.project.id,
-      sceneId: ctx.scene.id,
-      versionId: ctx.version.id,
-      spp: 9,
-      ...size,
-      integrator: "path",
-      tracerVersion: TRACER_VERSION,
-      title: "",
-      createdBy: ctx.user.id,
-      continuedFromId: browser!.id,
-      chunks: planChunks(4, 9, 3), // [4,7) [7,9)
-    });
+    const render = await poolRender(9, planChunks(4, 9, 3), browser!.id); // [4,7) [7,9)
     expect(render.sppDone).toBe(4);
     const done: string[] = [];
     await runChunk(deps("w-a", done), render.id, 1);
@@ -147,21 +142,7 @@ describe("pool chunks and merge", () => {
   });
 
   it("stops a cancelled render's chunk and never merges it", async () => {
-    const render = await createPoolRender(db(), {
-      projectId: ctx.project.id,
-      sceneId: ctx.scene.id,
-      versionId: ctx.version.id,
-      spp: 4,
-      width: 20,
-      height: 12,
-      seed: 17,
-      integrator: "path",
-      tracerVersion: TRACER_VERSION,
-      title: "",
-      createdBy: ctx.user.id,
-      continuedFromId: null,
-      chunks: planChunks(0, 4, 2),
-    });
+    const render = await poolRender(4, planChunks(0, 4, 2));
     const { cancelPoolRender } = await import("~/models/render-job.server");
     expect(await cancelPoolRender(db(), render.id)).toBe(true);
     const done: string[] = [];
@@ -177,21 +158,7 @@ describe("pool chunks and merge", () => {
     // finishing while a cancel runs: with the opposite orders four of the nine calls failed in the first round.
     const { cancelPoolRender, completeChunk, claimChunk } = await import("~/models/render-job.server");
     for (let round = 0; round < 20; round++) {
-      const render = await createPoolRender(db(), {
-        projectId: ctx.project.id,
-        sceneId: ctx.scene.id,
-        versionId: ctx.version.id,
-        spp: 16,
-        width: 20,
-        height: 12,
-        seed: 17,
-        integrator: "path",
-        tracerVersion: TRACER_VERSION,
-        title: "",
-        createdBy: ctx.user.id,
-        continuedFromId: null,
-        chunks: planChunks(0, 16, 2),
-      });
+      const render = await poolRender(16, planChunks(0, 16, 2));
       for (let i = 0; i < 8; i++) await claimChunk(db(), render.id, i, "w-race");
       const results = await Promise.allSettled([
         ...Array.from({ length: 8 }, (_, i) => completeChunk(db(), render.id, i, `tests/race/${render.id}/${i}`, "w-race")),
@@ -208,19 +175,7 @@ describe("pool chunks and merge", () => {
     const preview = await renderPasses(compiledFor(ctx.doc, size), 0, 3);
     // The row claims 4 passes; its state holds 3.
     const browser = await storedBrowserRender("short-state.bin", preview!, { claimedSpp: 4, size, withHash: false });
-    const render = await createPoolRender(db(), {
-      projectId: ctx.project.id,
-      sceneId: ctx.scene.id,
-      versionId: ctx.version.id,
-      spp: 6,
-      ...size,
-      integrator: "path",
-      tracerVersion: TRACER_VERSION,
-      title: "",
-      createdBy: ctx.user.id,
-      continuedFromId: browser!.id,
-      chunks: planChunks(4, 6, 2),
-    });
+    const render = await poolRender(6, planChunks(4, 6, 2), browser!.id);
     const done: string[] = [];
     await runChunk(deps("w-a", done), render.id, 0);
     await expect(mergeRender(deps("w-a", done), render.id)).rejects.toThrow(PermanentJobError);
