@@ -53,7 +53,7 @@
  * Wide node layout: see wide.ts.
  */
 import { TRAVERSAL_STACK_SIZE } from "./layout";
-import type { TriangleBvh } from "./traverse";
+import { inverse, type TriangleBvh } from "./traverse";
 import { COUNT_MASK, WIDE_WORDS } from "./wide";
 
 /** Rays per chunk: large enough to pay for each node's bookkeeping, small enough to stay in cache. */
@@ -100,12 +100,6 @@ function ensureScratch(depth: number): void {
   // The root's list plus up to four child lists per level of the path.
   const need = CHUNK * (4 * (depth + 1) + 1);
   if (lists.length < need) lists = packedSmallInts(need);
-}
-
-/** Same as traverse.ts: 1/d, finite for d = 0 so slab distances never become ∞ − ∞. */
-function inverse(d: number): number {
-  const a = 1 / d;
-  return a < 1e30 && a > -1e30 ? a : d < 0 ? -1e30 : 1e30;
 }
 
 /**

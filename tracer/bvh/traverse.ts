@@ -39,7 +39,7 @@ const shared = createTraversalScratch();
  * 1/d, but finite for d = 0 (or subnormal): with ∞, b·(1/d) − o·(1/d) would be ∞ − ∞ = NaN. 1e30 keeps the sign
  * logic of the slab test for any coordinate magnitude the scene limits allow (common practice).
  */
-function inverse(d: number): number {
+export function inverse(d: number): number {
   const a = 1 / d;
   return a < 1e30 && a > -1e30 ? a : d < 0 ? -1e30 : 1e30;
 }
