@@ -65,19 +65,8 @@ function threeIntersect(bvh: MeshBVH, rays: Float32Array, out: Float32Array): nu
   return hits;
 }
 
-/**
- * A full garbage collection when the process runs with --expose-gc (npm run bench:tracer does):
- * called before every timed segment so none of them pays for collecting garbage another left
- * behind (three-mesh-bvh allocates per ray; process CPU time includes V8's collector threads).
- * A library's own garbage from its own segment is still collected on its time.
- */
-export function settleHeap(): void {
-  (globalThis as { gc?: () => void }).gc?.();
-}
-
 /** Mrays per CPU second; repeats until at least minMs of CPU time so short sets are not timer noise. */
 function timeRays(fn: () => void, rays: number, minMs: number): number {
-  settleHeap();
   let reps = 0, ms = 0;
   do { ms += cpuMs(fn); reps++; } while (ms < minMs);
   return (rays * reps) / (ms / 1000) / 1e6;
@@ -111,13 +100,10 @@ export function compareMesh(mesh: BenchMesh, opts: { rays: number; buildRuns: nu
   // 1.3× faster for the CENTER build (better cache locality), which is not the same input.
   let buildOurs = Infinity, buildSah = Infinity, buildCenter = Infinity;
   for (let r = 0; r < opts.buildRuns; r++) {
-    settleHeap();
     buildOurs = Math.min(buildOurs, cpuMs(() => { ours = buildTriangleBvh(positions, indices); }));
     sahGeometry.dispose(); sahGeometry = geometryFor();
-    settleHeap();
     buildSah = Math.min(buildSah, cpuMs(() => { threeSah = new MeshBVH(sahGeometry, { strategy: SAH }); }));
     centerGeometry.dispose(); centerGeometry = geometryFor();
-    settleHeap();
     buildCenter = Math.min(buildCenter, cpuMs(() => { threeCenter = new MeshBVH(centerGeometry, { strategy: CENTER }); }));
   }
 
