@@ -15,8 +15,12 @@ export type RaySetFigures = {
   oursMraysPerSec: number;
   threeSahMraysPerSec: number;
   threeCenterMraysPerSec: number;
+  /** best of ours ÷ best of three-mesh-bvh's */
   ratioToThreeSah: number;
   ratioToThreeCenter: number;
+  /** median over the interleaved rounds of (ours ÷ three-mesh-bvh's) within the round */
+  medianRatioToThreeSah: number;
+  medianRatioToThreeCenter: number;
   /** rays whose closest-hit distance differs between the libraries (relative 1e-4) */
   disagreements: number;
 };
@@ -63,6 +67,11 @@ function threeIntersect(bvh: MeshBVH, rays: Float32Array, out: Float32Array): nu
     }
   }
   return hits;
+}
+
+function median(values: number[]): number {
+  const sorted = [...values].sort((x, y) => x - y), mid = sorted.length >> 1;
+  return sorted.length % 2 === 1 ? sorted[mid]! : (sorted[mid - 1]! + sorted[mid]!) / 2;
 }
 
 /** Mrays per CPU second; repeats until at least minMs of CPU time so short sets are not timer noise. */
@@ -124,20 +133,26 @@ export function compareMesh(mesh: BenchMesh, opts: { rays: number; buildRuns: nu
       const ta = a[i * 4]!, tb = b[i * 4]!;
       if (ta === Infinity || tb === Infinity ? ta !== tb : Math.abs(ta - tb) > 1e-4 * Math.max(1, tb)) disagreements++;
     }
-    // Interleaved rounds, best of each: the machine is shared, so load drifts during a run.
+    // Interleaved rounds: the machine is shared, so load drifts during a run. Best of each, and the
+    // median of the ratios within a round (one lucky round of either library cannot set it).
     let oursM = 0, sahM = 0, centerM = 0;
+    const sahRatios: number[] = [], centerRatios: number[] = [];
     for (let round = 0; round < opts.rounds; round++) {
-      oursM = Math.max(oursM, timeRays(() => intersectRays(ours, rays, a), n, opts.minMs));
-      sahM = Math.max(sahM, timeRays(() => threeIntersect(threeSah, rays, b), n, opts.minMs));
-      centerM = Math.max(centerM, timeRays(() => threeIntersect(threeCenter, rays, b), n, opts.minMs));
+      const o = timeRays(() => intersectRays(ours, rays, a), n, opts.minMs);
+      const sah = timeRays(() => threeIntersect(threeSah, rays, b), n, opts.minMs);
+      const center = timeRays(() => threeIntersect(threeCenter, rays, b), n, opts.minMs);
+      oursM = Math.max(oursM, o); sahM = Math.max(sahM, sah); centerM = Math.max(centerM, center);
+      sahRatios.push(o / sah); centerRatios.push(o / center);
     }
     const fig: RaySetFigures = {
       name, rays: n, hits,
       oursMraysPerSec: oursM, threeSahMraysPerSec: sahM, threeCenterMraysPerSec: centerM,
-      ratioToThreeSah: oursM / sahM, ratioToThreeCenter: oursM / centerM, disagreements,
+      ratioToThreeSah: oursM / sahM, ratioToThreeCenter: oursM / centerM,
+      medianRatioToThreeSah: median(sahRatios), medianRatioToThreeCenter: median(centerRatios),
+      disagreements,
     };
     raySets.push(fig);
-    opts.log(`  ${mesh.name.padEnd(12)} ${name.padEnd(7)} ${String(n).padStart(7)} rays  ours ${oursM.toFixed(2).padStart(6)} Mrays/s  three-mesh-bvh SAH ${sahM.toFixed(2).padStart(6)} (×${fig.ratioToThreeSah.toFixed(1)})  CENTER ${centerM.toFixed(2).padStart(6)} (×${fig.ratioToThreeCenter.toFixed(1)})  disagreements ${disagreements}`);
+    opts.log(`  ${mesh.name.padEnd(12)} ${name.padEnd(7)} ${String(n).padStart(7)} rays  ours ${oursM.toFixed(2).padStart(6)} Mrays/s  three-mesh-bvh SAH ${sahM.toFixed(2).padStart(6)} (×${fig.ratioToThreeSah.toFixed(1)}, median ×${fig.medianRatioToThreeSah.toFixed(1)})  CENTER ${centerM.toFixed(2).padStart(6)} (×${fig.ratioToThreeCenter.toFixed(1)}, median ×${fig.medianRatioToThreeCenter.toFixed(1)})  disagreements ${disagreements}`);
   }
   const oursBytes = triangleBvhByteLength(ours);
   const fig: MeshFigures = {

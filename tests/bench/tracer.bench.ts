@@ -128,7 +128,7 @@ export async function runBench(opts: BenchOptions): Promise<BenchFigures> {
       buildRuns: tiny ? 1 : big ? 3 : m.indices.length / 3 < 10_000 ? 40 : 10,
       warmRuns: tiny ? 1 : big ? 1 : 10,
       minMs: tiny ? 0 : 400,
-      rounds: tiny ? 1 : 3,
+      rounds: tiny ? 1 : 5,
       log,
     }));
   }

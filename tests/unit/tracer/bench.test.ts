@@ -16,6 +16,8 @@ describe("npm run bench:tracer --tiny", () => {
       expect(set.hits).toBeGreaterThan(0);
       expect(set.oursMraysPerSec).toBeGreaterThan(0);
       expect(set.ratioToThreeSah).toBeCloseTo(set.oursMraysPerSec / set.threeSahMraysPerSec, 10);
+      // One round on tiny inputs: its ratio is the median and equals best ÷ best.
+      expect(set.medianRatioToThreeCenter).toBeCloseTo(set.ratioToThreeCenter, 10);
     }
     expect(bunny.raySets.map((s) => s.name)).toEqual(["sphere", "bounce"]);
     expect(f.compiledScene!.triangles).toBe(3674);
