@@ -121,7 +121,7 @@ export async function runBench(opts: BenchOptions): Promise<BenchFigures> {
     const big = m.indices.length / 3 > 500_000;
     meshFigures.push(compareMesh(m, {
       // The same 100k rays on every mesh (the 941k one measured 40k before; its lists thin out
-      // sooner with fewer rays per direction octant, see README's performance section).
+      // sooner with fewer rays per direction octant, see tracer/README.md).
       rays: tiny ? 2000 : 100_000,
       // Small meshes build in milliseconds, where the first builds of a process still pay for background
       // compilation and GC: many interleaved runs (measured: 17 ms with 3 runs, 4 ms with 30 on the bunny).
