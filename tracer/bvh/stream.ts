@@ -381,7 +381,6 @@ function filter2(N: Float32Array, o: number, nxo: number, nyo: number, nzo: numb
   ends[0] = t0; ends[1] = t1;
 }
 
-
 /**
  * Rays traced one at a time below the stream, several at once. Below the point where the lists
  * thin out, a ray's walk is a chain of cache misses (node, then child node, then the leaf's
@@ -485,6 +484,7 @@ function laneStep(N: Float32Array, words: Uint32Array, tris: Float32Array, l: nu
       const nx = N[o + 3 + nxo]! * ix - oxi, ny = N[o + 3 + nyo]! * iy - oyi, nz = N[o + 3 + nzo]! * iz - ozi, fx = N[o + 3 + fxo]! * ix - oxi, fy = N[o + 3 + fyo]! * iy - oyi, fz = N[o + 3 + fzo]! * iz - ozi;
       mask |= ((+(nx <= fy) & +(nx <= fz) & +(ny <= fx) & +(ny <= fz) & +(nz <= fx) & +(nz <= fy)) & (+(nx <= tf) & +(ny <= tf) & +(nz <= tf) & +(tn <= fx) & +(tn <= fy) & +(tn <= fz))) << 3;
     }
+    // Empty slots have NaN bounds, so they never set their bit.
     const visitOrder = words[o + orderWord]! >>> 24;
     for (let k = 0; k < 4; k++) {
       const j = (visitOrder >>> (reversed ? 2 * k : 6 - 2 * k)) & 3;
