@@ -105,8 +105,11 @@ describe("render pool", { timeout: 240_000 }, () => {
   });
 
   it("survives a worker killed mid-chunk: another worker retries that chunk, the result is identical", async () => {
-    const size = { width: 64, height: 40, seed: 31 };
-    const res = await api.post("/api/v1/renders", { versionId: ctx.versionId, spp: 32, chunkPasses: 16, seed: 31, width: 64, height: 40 });
+    // Four chunks of about a second each, so each worker runs some and a running chunk of the victim is
+    // seen by the 150 ms polls (with two chunks of 64×40 × 16 passes, a tenth of a second each on a quiet
+    // machine, one worker could take both, or the victim's run fell between two polls: a 240 s hang).
+    const size = { width: 160, height: 100, seed: 31 };
+    const res = await api.post("/api/v1/renders", { versionId: ctx.versionId, spp: 64, chunkPasses: 16, seed: 31, width: 160, height: 100 });
     expect(res.status).toBe(202);
     const id = (res.json as unknown as ApiRender).id;
     const victim = workers[0];
@@ -121,12 +124,12 @@ describe("render pool", { timeout: 240_000 }, () => {
       (r) => r.status === "done",
       (r) => seenDone.add(r.sppDone),
     );
-    // Progress was visible while it ran: the other chunk's 16 passes before the killed one was redone.
-    expect([...seenDone].some((s) => s > 0 && s < 32)).toBe(true);
+    // Progress was visible while it ran: other chunks' passes before the killed one was redone.
+    expect([...seenDone].some((s) => s > 0 && s < 64)).toBe(true);
     const retried = done.chunks!.find((c) => c.index === chunk.index)!;
     expect(retried.attempts).toBeGreaterThanOrEqual(2);
     expect(retried.worker).toBe(workers[1].name);
-    const single = await reference(size, 32).acc;
+    const single = await reference(size, 64).acc;
     expect(done.accumulationHash).toBe(accumulationHash(single!));
 
     // Put a second worker back for the tests that follow.
